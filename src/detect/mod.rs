@@ -1,0 +1,1 @@
+//! detect (to be written).

@@ -1,0 +1,1 @@
+//! frontend (to be written).

@@ -1,0 +1,1 @@
+//! recording (to be written).

@@ -1,0 +1,1 @@
+//! simulate (to be written).
