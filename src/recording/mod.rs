@@ -1,1 +1,16 @@
-//! recording (to be written).
+//! Radar recordings: SigMF with the `rotorsift` extension (shared/INTERFACE.md §1).
+//! [`RecordingMeta`] parses and validates the metadata, [`ChirpReader`] streams blocks of
+//! chirps, [`RecordingWriter`] writes recordings atomically, [`RadarParams`] holds the
+//! radar settings and their derived figures.
+
+mod input;
+mod meta;
+mod params;
+mod reader;
+mod writer;
+
+pub use input::resolve_inputs;
+pub use meta::{data_path_of, to_json, Annotation, DataType, RecordingMeta};
+pub use params::{RadarParams, RangeAxis, Waveform};
+pub use reader::{ChirpBlock, ChirpReader};
+pub use writer::{with_suffix, write_atomic, RecordingWriter};
