@@ -15,7 +15,10 @@ pub fn resolve_inputs(inputs: &[PathBuf]) -> Result<Vec<PathBuf>> {
             walk(p, &mut found)?;
             found.sort();
             if found.is_empty() {
-                return Err(Error::format(p, "directory holds no *.sigmf-meta recordings"));
+                return Err(Error::format(
+                    p,
+                    "directory holds no *.sigmf-meta recordings",
+                ));
             }
             out.extend(found);
         } else {

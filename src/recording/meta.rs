@@ -200,10 +200,9 @@ impl RecordingMeta {
             .get("captures")
             .and_then(Value::as_array)
             .ok_or_else(|| bad("missing array \"captures\"".into()))?;
-        let cap0 = captures
-            .first()
-            .and_then(Value::as_object)
-            .ok_or_else(|| bad("captures is empty: expected captures[0] with core:frequency".into()))?;
+        let cap0 = captures.first().and_then(Value::as_object).ok_or_else(|| {
+            bad("captures is empty: expected captures[0] with core:frequency".into())
+        })?;
         let carrier_hz = Keys {
             obj: cap0,
             at: "captures[0]",
@@ -223,7 +222,7 @@ impl RecordingMeta {
         let frame = (datatype.bytes_per_sample() * num_channels) as u64;
         if data_len % frame != 0 {
             return Err(bad(format!(
-                "data file length {data_len} bytes is not a whole number of {} samples × {num_channels} channel(s) ({frame} bytes each)",
+                "data file length {data_len} bytes is not a whole number of {} samples × {num_channels} channel(s) of core:num_channels ({frame} bytes each)",
                 datatype.as_str()
             )));
         }
@@ -342,11 +341,7 @@ fn parse_annotation(k: Keys<'_>, n: usize, chirps: usize) -> Result<Annotation> 
         None | Some(Value::Null) => None,
         Some(Value::String(s)) => Some(s.clone()),
         Some(Value::Number(x)) => Some(x.to_string()),
-        Some(v) => {
-            return Err(k.bad(format!(
-                "rotorsift:target_id = {v}: expected a string"
-            )))
-        }
+        Some(v) => return Err(k.bad(format!("rotorsift:target_id = {v}: expected a string"))),
     };
     let truth = match k.obj.get("rotorsift:truth") {
         None | Some(Value::Null) => None,
@@ -438,7 +433,10 @@ pub fn to_json(
         "core:extensions".into(),
         json!([{"name": "rotorsift", "version": "1.0.0", "optional": false}]),
     );
-    g.insert("rotorsift:waveform".into(), json!(params.waveform().as_str()));
+    g.insert(
+        "rotorsift:waveform".into(),
+        json!(params.waveform().as_str()),
+    );
     g.insert("rotorsift:samples_per_chirp".into(), json!(n));
     g.insert(
         "rotorsift:chirp_interval_s".into(),

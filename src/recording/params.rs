@@ -46,7 +46,10 @@ pub enum RangeAxis {
         sweep_duration_s: f64,
     },
     /// Range profile: cell spacing and the range of cell 0.
-    RangeProfile { range_cell_m: f64, range_start_m: f64 },
+    RangeProfile {
+        range_cell_m: f64,
+        range_start_m: f64,
+    },
 }
 
 /// The radar settings of one recording (SI units).
@@ -96,12 +99,15 @@ impl RadarParams {
                         self.samples_per_chirp as f64 / self.sample_rate_hz
                     )
                 })?;
-                ensure(sweep_duration_s <= self.chirp_interval_s * (1.0 + 1e-9), || {
-                    format!(
+                ensure(
+                    sweep_duration_s <= self.chirp_interval_s * (1.0 + 1e-9),
+                    || {
+                        format!(
                         "rotorsift:sweep_duration_s = {sweep_duration_s}: expected <= rotorsift:chirp_interval_s = {}",
                         self.chirp_interval_s
                     )
-                })?;
+                    },
+                )?;
             }
             RangeAxis::RangeProfile {
                 range_cell_m,
@@ -109,7 +115,9 @@ impl RadarParams {
             } => {
                 pos("rotorsift:range_cell_m", range_cell_m)?;
                 ensure(range_start_m.is_finite() && range_start_m >= 0.0, || {
-                    format!("rotorsift:range_start_m = {range_start_m}: expected a finite number >= 0")
+                    format!(
+                        "rotorsift:range_start_m = {range_start_m}: expected a finite number >= 0"
+                    )
                 })?;
                 ensure(
                     self.sample_rate_hz.is_finite() && self.sample_rate_hz >= 0.0,
@@ -284,6 +292,10 @@ mod tests {
         assert!(e.contains("rotorsift:samples_per_chirp = 4"), "{e}");
         let mut p = fmcw();
         p.carrier_hz = -1.0;
-        assert!(p.check().unwrap_err().to_string().contains("core:frequency"));
+        assert!(p
+            .check()
+            .unwrap_err()
+            .to_string()
+            .contains("core:frequency"));
     }
 }

@@ -29,7 +29,12 @@ pub struct RecordingWriter {
 impl RecordingWriter {
     /// Starts a recording at `base` (no extension). Samples are multiplied by `scale`
     /// before encoding (integer formats saturate at full scale 1.0).
-    pub fn create(base: &Path, params: &RadarParams, datatype: DataType, scale: f32) -> Result<Self> {
+    pub fn create(
+        base: &Path,
+        params: &RadarParams,
+        datatype: DataType,
+        scale: f32,
+    ) -> Result<Self> {
         params.check()?;
         let tmp_data = with_suffix(base, ".sigmf-data.tmp");
         let f = File::create(&tmp_data).map_err(|e| Error::io(&tmp_data, e))?;
@@ -71,7 +76,11 @@ impl RecordingWriter {
     }
 
     /// Writes the metadata and moves both files into place; returns the meta path.
-    pub fn finish(self, annotations: &[Annotation], extra_global: &Map<String, Value>) -> Result<PathBuf> {
+    pub fn finish(
+        self,
+        annotations: &[Annotation],
+        extra_global: &Map<String, Value>,
+    ) -> Result<PathBuf> {
         let RecordingWriter {
             base,
             tmp_data,
@@ -90,7 +99,8 @@ impl RecordingWriter {
         let meta = to_json(&params, datatype, &anns, extra_global);
         let meta_path = with_suffix(&base, ".sigmf-meta");
         let data_path = with_suffix(&base, ".sigmf-data");
-        let text = serde_json::to_string_pretty(&meta).map_err(|e| Error::Invalid(e.to_string()))?;
+        let text =
+            serde_json::to_string_pretty(&meta).map_err(|e| Error::Invalid(e.to_string()))?;
         write_atomic(&meta_path, text.as_bytes())?;
         std::fs::rename(&tmp_data, &data_path).map_err(|e| Error::io(&data_path, e))?;
         Ok(meta_path)

@@ -1,1 +1,17 @@
-//! report (to be written).
+//! Reports: tables, JSON and CSV exporters for results computed by the other stages.
+//! `report` reads results; it computes none.
+
+pub mod info;
+pub mod table;
+
+pub use table::Table;
+
+/// Output formats of the commands that print results.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, clap::ValueEnum)]
+pub enum Format {
+    /// Aligned text columns for people.
+    #[default]
+    Table,
+    /// JSON as shared/INTERFACE.md defines it.
+    Json,
+}
