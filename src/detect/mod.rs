@@ -1,1 +1,3 @@
-//! detect (to be written).
+//! detect: CFAR, micro-Doppler energy detector, clustering, tracks.
+
+pub mod microdoppler;
