@@ -1,1 +1,0 @@
-//! pipeline (to be written).

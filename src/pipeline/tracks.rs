@@ -1,0 +1,281 @@
+//! Pass one over a recording: range processing, clutter cancelling, range-Doppler maps over
+//! CPIs, range normalisation, CFAR on the cancelled map, the micro-Doppler energy detector
+//! for bodies in the canceller notch, clustering and tracking. Streams the recording block by
+//! block; memory holds one CPI of chirps (cancelled and raw), not the recording.
+
+use ndarray::Array2;
+use rustfft::num_complex::Complex32;
+
+use super::settings::DetectSettings;
+use crate::detect::{
+    CfarHit, CfarPlan, ClusterParams, Clusterer, Detection, MicroDopplerDetector,
+    MicroDopplerHit, Track, Tracker,
+};
+use crate::error::{Error, Result};
+use crate::frontend::{
+    CancellerState, NoiseFloor, NoiseFloorParams, RangeDopplerMap, RangeDopplerPlan, RangePlan,
+};
+use crate::recording::{ChirpBlock, ChirpReader, RecordingMeta, Waveform};
+
+/// Chirps read from the file at a time.
+const READ_CHIRPS: usize = 2048;
+
+/// What pass one found in one recording.
+#[derive(Debug, Clone)]
+pub struct TrackRun {
+    /// Confirmed tracks, numbered in start order.
+    pub tracks: Vec<Track>,
+    /// CPIs processed.
+    pub cpis: usize,
+    /// Duration of one CPI, s.
+    pub cpi_s: f64,
+    /// Detections from the CFAR path, summed over CPIs.
+    pub cfar_detections: usize,
+    /// Detections from the micro-Doppler energy detector alone (body in the notch).
+    pub notch_detections: usize,
+}
+
+/// The front end for one radar: plans and buffers made once, reused for every chirp/CPI.
+pub(crate) struct FrontEnd {
+    range: RangePlan,
+    scratch: Vec<Complex32>,
+    chirp: Vec<Complex32>,
+    cells: usize,
+}
+
+impl FrontEnd {
+    pub(crate) fn new(meta: &RecordingMeta, s: &DetectSettings) -> Result<Self> {
+        let n = meta.params.samples_per_chirp;
+        let range = match meta.params.waveform() {
+            Waveform::FmcwBeat => RangePlan::new(n, s.range_window)?,
+            Waveform::RangeProfile => RangePlan::pass_through(n)?,
+        };
+        let scratch = vec![Complex32::new(0.0, 0.0); range.scratch_len()];
+        Ok(FrontEnd {
+            range,
+            scratch,
+            chirp: vec![Complex32::new(0.0, 0.0); n],
+            cells: meta.params.range_bins(),
+        })
+    }
+    /// Range-compresses chirp `i` of `block`; the result is borrowed until the next call.
+    pub(crate) fn range_profile(&mut self, block: &ChirpBlock, i: usize) -> Result<&[Complex32]> {
+        self.chirp.copy_from_slice(block.chirp(i));
+        self.range
+            .process_with_scratch(&mut self.chirp, &mut self.scratch)?;
+        Ok(&self.chirp[..self.cells])
+    }
+}
+
+/// Runs pass one on a recording's channel.
+pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> Result<TrackRun> {
+    s.check()?;
+    let p = &meta.params;
+    let k = p.range_bins();
+    let m = s.cpi_chirps;
+    let order = s.canceller.order();
+    if meta.chirps < m + order {
+        return Err(Error::format(
+            &meta.meta_path,
+            format!(
+                "the recording holds {} chirps, fewer than one CPI of {m} (+{order} for the canceller); use a shorter --cpi",
+                meta.chirps
+            ),
+        ));
+    }
+    let prf = p.prf_hz();
+    let lambda = p.wavelength_m();
+    let mut fe = FrontEnd::new(meta, s)?;
+    let mut canc = CancellerState::new(s.canceller, k, s.phase_align)?;
+    let mut rd = RangeDopplerPlan::new(m, s.doppler_window)?;
+    let mut rd_raw = RangeDopplerPlan::new(m, s.doppler_window)?;
+    let mut noise = NoiseFloor::new(NoiseFloorParams::new(s.noise_half_window, s.noise_smoothing))?;
+    let mut cfar = CfarPlan::new(s.cfar)?;
+    let mut md = MicroDopplerDetector::new(s.microdoppler)?;
+    let mut clusterer = Clusterer::new(ClusterParams::new(1)?)?;
+    let mut tracker = Tracker::new(s.tracker, p.range_cell_m())?;
+
+    let notch = notch_mask(m, prf, lambda, s.notch_mps);
+    let outside: Vec<bool> = notch.iter().map(|n| !n).collect();
+    let skip = match p.waveform() {
+        Waveform::FmcwBeat => s.skip_near_cells.min(k.saturating_sub(3)),
+        Waveform::RangeProfile => 0,
+    };
+    let allowed = Array2::from_shape_fn((k, m), |(r, d)| r >= skip && outside[d]);
+
+    let zero = Complex32::new(0.0, 0.0);
+    let mut ring_c = vec![zero; m * k];
+    let mut ring_r = vec![zero; m * k];
+    let mut cpi_c = vec![zero; m * k];
+    let mut cpi_r = vec![zero; m * k];
+    let mut out = vec![zero; k];
+    let mut map = RangeDopplerMap::zeros(k, m, prf);
+    let mut raw = RangeDopplerMap::zeros(k, m, prf);
+    let mut norm = Array2::<f32>::zeros((k, m));
+    let mut hits: Vec<CfarHit> = Vec::new();
+    let mut md_hits: Vec<MicroDopplerHit> = Vec::new();
+    let mut dets: Vec<Detection> = Vec::new();
+
+    let mut reader = ChirpReader::open(meta, channel)?;
+    let mut block = ChirpBlock::default();
+    let (mut pos, mut valid, mut since, mut cpis) = (0usize, 0usize, 0usize, 0usize);
+    let (mut n_cfar, mut n_notch) = (0usize, 0usize);
+    let range_of_cell = |c: f64| p.range_of_bin(c);
+    let vel_of_bin = |d: usize| p.velocity_of_doppler((d as f64 - (m / 2) as f64) * prf / m as f64);
+    let in_notch = |d: usize| notch[d];
+    loop {
+        let got = reader.read_block(&mut block, READ_CHIRPS)?;
+        if got == 0 {
+            break;
+        }
+        for i in 0..got {
+            let prof = fe.range_profile(&block, i)?;
+            ring_r[pos * k..(pos + 1) * k].copy_from_slice(prof);
+            if canc.push(prof, &mut out)? {
+                ring_c[pos * k..(pos + 1) * k].copy_from_slice(&out);
+                valid += 1;
+            } else {
+                ring_c[pos * k..(pos + 1) * k].fill(zero);
+            }
+            pos = (pos + 1) % m;
+            since += 1;
+            if valid < m || since < s.cpi_hop {
+                continue;
+            }
+            since = 0;
+            let last_chirp = block.first_chirp + i;
+            let first_chirp = last_chirp + 1 - m;
+            let t_s = (first_chirp as f64 + m as f64 / 2.0) * p.chirp_interval_s;
+            unroll(&ring_c, pos, k, &mut cpi_c);
+            rd.process_into(&cpi_c, prf, &mut map)?;
+            noise.update(&map)?;
+            noise.normalise_into(&map, &mut norm)?;
+            for r in 0..skip {
+                norm.row_mut(r).fill(1.0);
+            }
+            cfar.detect(norm.view(), Some(allowed.view()), &mut hits)?;
+            clusterer.cluster(&hits, &range_of_cell, &vel_of_bin, &in_notch, &mut dets);
+            n_cfar += dets.len();
+            md_hits.clear();
+            md.detect(norm.view(), &outside, &mut md_hits);
+            md_hits.retain(|h| h.range >= skip);
+            let before = dets.len();
+            add_notch_detections(&md_hits, &mut dets, p, &mut || {
+                unroll(&ring_r, pos, k, &mut cpi_r);
+                rd_raw.process_into(&cpi_r, prf, &mut raw)
+            }, &raw_peak_velocity(&notch, m, prf, lambda), &mut raw)?;
+            n_notch += dets.len() - before;
+            tracker.update(cpis, t_s, &dets)?;
+            cpis += 1;
+        }
+    }
+    Ok(TrackRun {
+        tracks: tracker.finish(),
+        cpis,
+        cpi_s: m as f64 * p.chirp_interval_s,
+        cfar_detections: n_cfar,
+        notch_detections: n_notch,
+    })
+}
+
+/// Copies a ring of `m` chirps (next write position `pos`) into time order.
+fn unroll(ring: &[Complex32], pos: usize, k: usize, out: &mut [Complex32]) {
+    let split = pos * k;
+    let tail = ring.len() - split;
+    out[..tail].copy_from_slice(&ring[split..]);
+    out[tail..].copy_from_slice(&ring[..split]);
+}
+
+/// Doppler bins (FFT-shifted, bin m/2 = 0 Hz) inside the canceller notch: slower than
+/// `notch_mps`, and always the window's main lobe (±2 bins) around 0 Hz.
+pub fn notch_mask(m: usize, prf: f64, lambda: f64, notch_mps: f64) -> Vec<bool> {
+    (0..m)
+        .map(|d| {
+            let off = d as f64 - (m / 2) as f64;
+            let v = off * prf / m as f64 * lambda / 2.0;
+            off.abs() <= 2.0 || v.abs() < notch_mps
+        })
+        .collect()
+}
+
+/// The velocity axis restricted to the notch, for reading a body line in the raw map.
+struct NotchAxis {
+    bins: Vec<(usize, f64)>,
+}
+
+fn raw_peak_velocity(notch: &[bool], m: usize, prf: f64, lambda: f64) -> NotchAxis {
+    NotchAxis {
+        bins: (0..m)
+            .filter(|&d| notch[d])
+            .map(|d| (d, (d as f64 - (m / 2) as f64) * prf / m as f64 * lambda / 2.0))
+            .collect(),
+    }
+}
+
+/// Turns micro-Doppler hits away from every CFAR detection into detections with the body
+/// in the notch. Their velocity is read from the uncancelled map (the strongest notch bin
+/// of the cell), computed only when needed.
+fn add_notch_detections(
+    md_hits: &[MicroDopplerHit],
+    dets: &mut Vec<Detection>,
+    p: &crate::recording::RadarParams,
+    make_raw: &mut dyn FnMut() -> Result<()>,
+    axis: &NotchAxis,
+    raw: &mut RangeDopplerMap,
+) -> Result<()> {
+    let cell = p.range_cell_m();
+    let covered = |r: f64, dets: &[Detection]| {
+        dets.iter()
+            .any(|d| !d.in_notch && r >= d.range_min_m - 1.5 * cell && r <= d.range_max_m + 1.5 * cell)
+    };
+    let mut have_raw = false;
+    let mut i = 0;
+    while i < md_hits.len() {
+        let mut j = i + 1;
+        while j < md_hits.len() && md_hits[j].range <= md_hits[j - 1].range + 1 {
+            j += 1;
+        }
+        let group = &md_hits[i..j];
+        i = j;
+        let best = group
+            .iter()
+            .max_by(|a, b| a.ratio.total_cmp(&b.ratio))
+            .copied()
+            .unwrap_or(group[0]);
+        let r_best = p.range_of_bin(best.range as f64);
+        if covered(r_best, dets) {
+            continue;
+        }
+        if !have_raw {
+            make_raw()?;
+            have_raw = true;
+        }
+        let wsum: f64 = group.iter().map(|h| (h.ratio - 1.0).max(0.0) as f64).sum();
+        let centroid = if wsum > 0.0 {
+            group
+                .iter()
+                .map(|h| h.range as f64 * (h.ratio - 1.0).max(0.0) as f64)
+                .sum::<f64>()
+                / wsum
+        } else {
+            best.range as f64
+        };
+        let row = raw.power.row(best.range);
+        let velocity = axis
+            .bins
+            .iter()
+            .max_by(|a, b| row[a.0].total_cmp(&row[b.0]))
+            .map(|b| b.1)
+            .unwrap_or(0.0);
+        dets.push(Detection {
+            range_m: p.range_of_bin(centroid),
+            velocity_mps: velocity,
+            snr_db: best.snr_db as f64,
+            range_min_m: p.range_of_bin(group[0].range as f64),
+            range_max_m: p.range_of_bin(group[group.len() - 1].range as f64),
+            spread_mps: 0.0,
+            in_notch: true,
+        });
+    }
+    Ok(())
+}
