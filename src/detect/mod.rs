@@ -1,1 +1,15 @@
-//! detect (to be written).
+//! Detection stage: CFAR on the range-Doppler power map, clustering of one CPI's hits into
+//! [`Detection`]s, and a range-velocity tracker that links detections over CPIs into
+//! [`Track`]s.
+
+pub mod cfar;
+pub mod cluster;
+pub mod detection;
+pub mod tracker;
+
+pub use cfar::{
+    ca_alpha, ca_pfa, os_alpha, os_pfa, os_rank, CfarHit, CfarKind, CfarParams, CfarPlan,
+};
+pub use cluster::{ClusterParams, Clusterer};
+pub use detection::Detection;
+pub use tracker::{Track, TrackPoint, Tracker, TrackerParams};
