@@ -17,11 +17,12 @@ use crate::error::ensure;
 use crate::{Error, Result};
 
 /// Which noise estimator the CFAR uses.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum CfarKind {
     /// Mean of the training cells (Richards, *Fundamentals of Radar Signal Processing*,
-    /// 2nd ed., §6.5.3).
+    /// 2nd ed., §6.5.3). The default.
+    #[default]
     CellAveraging,
     /// The k-th smallest training cell, k = round(rank_fraction · N) clamped to 1..=N
     /// (Rohling, IEEE Trans. AES-19(4), 1983; Richards §6.5.6).
@@ -29,12 +30,6 @@ pub enum CfarKind {
         /// Rank as a fraction of the training-cell count, in (0, 1]; 0.75 is common practice.
         rank_fraction: f64,
     },
-}
-
-impl Default for CfarKind {
-    fn default() -> Self {
-        CfarKind::CellAveraging
-    }
 }
 
 impl FromStr for CfarKind {
