@@ -71,7 +71,9 @@ impl Clusterer {
     ///
     /// Per group: `range_m` = range of the power-weighted centroid of the hits' cell
     /// indices (linear power weights); `range_min_m`/`range_max_m` = ranges of the
-    /// extreme cells; `velocity_mps`, `snr_db` and `in_notch` from the strongest hit;
+    /// extreme cells; `velocity_mps` from the strongest hit when it holds at least
+    /// [`BODY_DOMINANCE`] of the group's power, else the power-weighted mean velocity;
+    /// `snr_db` and `in_notch` from the strongest hit;
     /// `spread_mps` = power-weighted standard deviation of the hits' velocities (0 for a
     /// single hit). Hits with non-finite or negative power are ignored.
     pub fn cluster(
@@ -109,6 +111,9 @@ impl Clusterer {
         }
     }
 }
+
+/// Share of a group's power its strongest hit must hold to be taken as the body line.
+pub const BODY_DOMINANCE: f64 = 0.25;
 
 fn measure(
     hits: &[CfarHit],
@@ -160,9 +165,17 @@ fn measure(
         0.0
     };
     let b = &hits[best];
+    // A body line dominates a mover's hits; when no hit holds a quarter of the group's
+    // power (blade lines of a rotor whose body is in the canceller notch), the spread is
+    // about symmetric around the body and its power-weighted centroid is the better guess.
+    let dominant = wsum <= 0.0 || b.power as f64 >= BODY_DOMINANCE * wsum;
     Detection {
         range_m: range_of_cell(centroid),
-        velocity_mps: velocity_of_bin(b.doppler),
+        velocity_mps: if dominant {
+            velocity_of_bin(b.doppler)
+        } else {
+            vmean
+        },
         snr_db: b.snr_db as f64,
         range_min_m: range_of_cell(first as f64),
         range_max_m: range_of_cell(last as f64),
@@ -241,6 +254,23 @@ mod tests {
         c2.cluster(&hits, &range_of, &vel_of, &notch, &mut out);
         assert_eq!(out.len(), 2);
         assert_eq!(out[0].range_max_m, 8.5);
+    }
+
+    #[test]
+    fn spread_without_a_dominant_line_reports_its_centroid() {
+        // Blade lines of a hovering rotor: eight equal hits at +-1, +-2, +-3, +-4 m/s
+        // (bins 28..36 without 32); none holds a quarter of the power, so the velocity is
+        // the centroid, 0 m/s, not the first strongest line.
+        let hits: Vec<CfarHit> = [28, 29, 30, 31, 33, 34, 35, 36]
+            .iter()
+            .map(|&d| hit(5, d * 4 - 96, 3.0))
+            .collect();
+        let mut c = Clusterer::default();
+        let mut out = Vec::new();
+        c.cluster(&hits, &range_of, &vel_of, &notch, &mut out);
+        assert_eq!(out.len(), 1);
+        assert!(out[0].velocity_mps.abs() < 1e-12, "{:?}", out[0]);
+        assert!(out[0].spread_mps > 1.0);
     }
 
     #[test]

@@ -1,0 +1,76 @@
+//! The feature vector's layout: every feature's name, unit and meaning, in order. The
+//! README's feature table is generated from this list (`rotorsift features --list`).
+
+/// One feature: name (CSV column), unit, meaning.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct FeatureInfo {
+    pub name: &'static str,
+    pub unit: &'static str,
+    pub meaning: &'static str,
+}
+
+macro_rules! features {
+    ($( $id:ident = $name:literal, $unit:literal, $meaning:literal; )*) => {
+        /// Index of each feature in [`FEATURES`].
+        #[allow(non_camel_case_types, clippy::upper_case_acronyms)]
+        #[derive(Debug, Clone, Copy, PartialEq, Eq)]
+        #[repr(usize)]
+        pub enum F { $( $id, )* }
+        /// Every feature, in vector order.
+        pub const FEATURES: &[FeatureInfo] = &[
+            $( FeatureInfo { name: $name, unit: $unit, meaning: $meaning }, )*
+        ];
+    };
+}
+
+features! {
+    BodySpeed = "body_speed_mps", "m/s", "median |radial velocity| of the track's body line";
+    BodySpeedStd = "body_speed_std_mps", "m/s", "spread (std) of the body's radial velocity over the track";
+    RangeRate = "range_rate_mps", "m/s", "slope of range over time (least squares), signed, positive = receding";
+    RangeExtent = "range_extent_m", "m", "max minus min range over the track";
+    Duration = "duration_s", "s", "track duration";
+    Snr = "snr_db", "dB", "mean detection SNR over the track's CPIs (after range FFT and Doppler integration)";
+    SnrStd = "snr_std_db", "dB", "spread (std) of the detection SNR over the track's CPIs";
+    AmpStd = "amp_std_db", "dB", "spread (std) of the slow-time amplitude envelope (5 ms smoothing), clutter removed";
+    AmpCadenceHz = "amp_cadence_hz", "Hz", "strongest periodicity of the amplitude envelope between 0.5 and 30 Hz";
+    AmpCadenceStrength = "amp_cadence_strength_db", "dB", "that peak over the median of the envelope spectrum in the band";
+    MdExtent = "md_extent_mps", "m/s", "largest |velocity offset| from the body where the max-hold spectrogram is 6 dB over its noise maximum";
+    MdExtent95 = "md_extent95_mps", "m/s", "|velocity offset| from the body holding 95% of the excess spectral energy";
+    OutsideShare = "outside_share", "1", "share of excess spectral energy more than 0.5 m/s (and 2 bins) from the body line";
+    Entropy = "spectral_entropy", "1", "entropy of the mean excess Doppler spectrum, normalised to 0..1";
+    Symmetry = "spectral_symmetry", "1", "(E+ - E-)/(E+ + E-) of excess energy above and below the body line";
+    Cep1 = "cepstrum_1", "1", "real cepstrum coefficient 1 of the mean log Doppler spectrum";
+    Cep2 = "cepstrum_2", "1", "real cepstrum coefficient 2";
+    Cep3 = "cepstrum_3", "1", "real cepstrum coefficient 3";
+    Cep4 = "cepstrum_4", "1", "real cepstrum coefficient 4";
+    CepPeakHz = "cepstral_line_hz", "Hz", "Doppler line spacing from the cepstral peak (1/quefrency), 20 Hz to PRF/4";
+    CepPeakStrength = "cepstral_peak_strength", "1", "cepstral peak over the median cepstral magnitude in that quefrency band";
+    FlashHz = "blade_flash_hz", "Hz", "blade-flash rate: fundamental of the periodic flashes of micro-Doppler power (harmonic sum)";
+    FlashStrength = "blade_flash_strength_db", "dB", "harmonic-sum peak over its median across the flash band";
+    TipSpeed = "tip_speed_mps", "m/s", "blade-tip speed: the micro-Doppler extent (max |v - v_body|), limited by the unambiguous speed";
+    BladeLength = "blade_length_m", "m", "tip speed / (2 pi f_rot), f_rot = flash rate / 2 (two blades assumed)";
+    CadenceLowHz = "cadence_low_hz", "Hz", "cadence-velocity diagram: strongest cadence between 0.5 and 30 Hz (wingbeat band)";
+    CadenceLowStrength = "cadence_low_strength_db", "dB", "that peak over the median of the summed cadence spectrum";
+    CadenceHighHz = "cadence_high_hz", "Hz", "cadence-velocity diagram: strongest cadence above 30 Hz (rotor band)";
+    CadenceHighStrength = "cadence_high_strength_db", "dB", "that peak over the median of the summed cadence spectrum";
+    NotchShare = "notch_share", "1", "share of the track's CPIs found only by the micro-Doppler detector (body in the canceller notch)";
+}
+
+/// Number of features.
+pub fn count() -> usize {
+    FEATURES.len()
+}
+
+/// Feature names in order.
+pub fn names() -> Vec<String> {
+    FEATURES.iter().map(|f| f.name.to_string()).collect()
+}
+
+/// The feature table in Markdown (for the README).
+pub fn markdown_table() -> String {
+    let mut s = String::from("| feature | unit | meaning |\n| --- | --- | --- |\n");
+    for f in FEATURES {
+        s.push_str(&format!("| `{}` | {} | {} |\n", f.name, f.unit, f.meaning));
+    }
+    s
+}

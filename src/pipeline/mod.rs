@@ -1,0 +1,167 @@
+//! The pipeline: composes the stages (recording → tracks → features → predictions) so the
+//! command line, the benchmarks and the tests all run the same path.
+
+pub mod matching;
+pub mod settings;
+pub mod signals;
+pub mod tracks;
+
+use serde::{Deserialize, Serialize};
+
+pub use matching::{match_tracks, matches, TrackSpan};
+pub use settings::DetectSettings;
+pub use signals::{track_signals, TrackSignal};
+pub use tracks::{find_tracks, notch_mask, TrackRun};
+
+use crate::detect::Track;
+use crate::error::Result;
+use crate::features::{Extractor, FeatureSettings, RotorEstimates, TrackKinematics};
+use crate::recording::RecordingMeta;
+
+/// Everything that turns a recording into feature vectors.
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+pub struct PipelineSettings {
+    /// Front end, detection and tracking.
+    pub detect: DetectSettings,
+    /// Feature extraction.
+    pub features: FeatureSettings,
+}
+
+/// One track with its summary, features and rotor estimates.
+#[derive(Debug, Clone)]
+pub struct AnalysedTrack {
+    /// The tracker's output.
+    pub track: Track,
+    /// Start, s from the first chirp (first CPI's start).
+    pub start_s: f64,
+    /// End, s (last CPI's end).
+    pub end_s: f64,
+    /// Kinematic summary.
+    pub kinematics: TrackKinematics,
+    /// Feature vector (order of `features::FEATURES`); empty when not computed.
+    pub features: Vec<f64>,
+    /// Blade-flash rate, tip speed and blade length, when a rotor is seen.
+    pub rotor: RotorEstimates,
+}
+
+impl AnalysedTrack {
+    /// The span the match rule uses.
+    pub fn span(&self) -> TrackSpan {
+        TrackSpan {
+            start_s: self.start_s,
+            end_s: self.end_s,
+            median_range_m: self.track.median_range_m(),
+        }
+    }
+}
+
+/// A recording's tracks and how they were found.
+#[derive(Debug, Clone)]
+pub struct RecordingAnalysis {
+    /// The recording.
+    pub meta: RecordingMeta,
+    /// Tracks in start order.
+    pub tracks: Vec<AnalysedTrack>,
+    /// Pass-one statistics.
+    pub cpis: usize,
+    pub cfar_detections: usize,
+    pub notch_detections: usize,
+}
+
+/// Least-squares slope of `y` over `t`.
+fn slope(t: &[f64], y: &[f64]) -> f64 {
+    let n = t.len() as f64;
+    if t.len() < 2 {
+        return 0.0;
+    }
+    let (mt, my) = (t.iter().sum::<f64>() / n, y.iter().sum::<f64>() / n);
+    let sxy: f64 = t.iter().zip(y).map(|(a, b)| (a - mt) * (b - my)).sum();
+    let sxx: f64 = t.iter().map(|a| (a - mt) * (a - mt)).sum();
+    if sxx > 0.0 {
+        sxy / sxx
+    } else {
+        0.0
+    }
+}
+
+fn std(x: &[f64]) -> f64 {
+    if x.len() < 2 {
+        return 0.0;
+    }
+    let m = x.iter().sum::<f64>() / x.len() as f64;
+    (x.iter().map(|a| (a - m) * (a - m)).sum::<f64>() / (x.len() - 1) as f64).sqrt()
+}
+
+/// Kinematic summary of a track.
+pub fn kinematics(track: &Track) -> TrackKinematics {
+    let t: Vec<f64> = track.points.iter().map(|p| p.t_s).collect();
+    let r: Vec<f64> = track.points.iter().map(|p| p.detection.range_m).collect();
+    let v: Vec<f64> = track.points.iter().map(|p| p.detection.velocity_mps).collect();
+    let snr: Vec<f64> = track.points.iter().map(|p| p.detection.snr_db).collect();
+    let notch = track.points.iter().filter(|p| p.detection.in_notch).count();
+    TrackKinematics {
+        body_velocity_mps: track.median_velocity_mps(),
+        body_speed_std_mps: std(&v),
+        range_rate_mps: slope(&t, &r),
+        range_extent_m: track.range_max_m() - track.range_min_m(),
+        duration_s: track.duration_s(),
+        snr_db: track.mean_snr_db(),
+        snr_std_db: std(&snr),
+        notch_share: notch as f64 / track.points.len().max(1) as f64,
+    }
+}
+
+/// Runs detection and tracking, and (when `with_features`) feature extraction, on one
+/// recording's channel.
+pub fn analyse(
+    meta: &RecordingMeta,
+    channel: usize,
+    settings: &PipelineSettings,
+    with_features: bool,
+) -> Result<RecordingAnalysis> {
+    let run = find_tracks(meta, channel, &settings.detect)?;
+    let p = &meta.params;
+    let half_cpi = run.cpi_s / 2.0;
+    let duration = meta.duration_s();
+    let signals = if with_features {
+        let max_chirps = (settings.features.max_track_s / p.chirp_interval_s) as usize;
+        track_signals(meta, channel, &settings.detect, &run.tracks, max_chirps)?
+    } else {
+        Vec::new()
+    };
+    let mut extractor = if with_features {
+        Some(Extractor::new(&settings.features, p.prf_hz(), p.wavelength_m())?)
+    } else {
+        None
+    };
+    let mut tracks = Vec::with_capacity(run.tracks.len());
+    for (i, track) in run.tracks.into_iter().enumerate() {
+        let kin = kinematics(&track);
+        let (features, rotor) = match (&mut extractor, signals.get(i)) {
+            (Some(ex), Some(sig)) => ex.extract(&sig.samples, &kin)?,
+            _ => (
+                Vec::new(),
+                RotorEstimates {
+                    blade_flash_hz: None,
+                    tip_speed_mps: None,
+                    blade_length_m: None,
+                },
+            ),
+        };
+        tracks.push(AnalysedTrack {
+            start_s: (track.start_s - half_cpi).max(0.0),
+            end_s: (track.end_s + half_cpi).min(duration),
+            track,
+            kinematics: kin,
+            features,
+            rotor,
+        });
+    }
+    Ok(RecordingAnalysis {
+        meta: meta.clone(),
+        tracks,
+        cpis: run.cpis,
+        cfar_detections: run.cfar_detections,
+        notch_detections: run.notch_detections,
+    })
+}
