@@ -21,8 +21,10 @@ pub mod window;
 pub use canceller::{Canceller, CancellerState};
 
 pub use doppler::{RangeDopplerMap, RangeDopplerPlan};
+pub use normalise::{NoiseFloor, NoiseFloorParams};
 
 pub use range::RangePlan;
+pub use stft::{Scaling, StftParams, StftPlan};
 
 pub use window::Window;
 
