@@ -7,12 +7,19 @@ use rustfft::num_complex::Complex32;
 use serde_json::Value;
 
 fn golden() -> Value {
-    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/reference/frontend_golden.json");
+    let path = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/reference/frontend_golden.json"
+    );
     serde_json::from_str(&std::fs::read_to_string(path).expect("read golden")).expect("parse")
 }
 
 fn reals(v: &Value) -> Vec<f64> {
-    v.as_array().unwrap().iter().map(|x| x.as_f64().unwrap()).collect()
+    v.as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x.as_f64().unwrap())
+        .collect()
 }
 
 fn complexes(v: &Value) -> Vec<(f64, f64)> {
@@ -20,7 +27,9 @@ fn complexes(v: &Value) -> Vec<(f64, f64)> {
 }
 
 fn to_c32(v: &[(f64, f64)]) -> Vec<Complex32> {
-    v.iter().map(|&(r, i)| Complex32::new(r as f32, i as f32)).collect()
+    v.iter()
+        .map(|&(r, i)| Complex32::new(r as f32, i as f32))
+        .collect()
 }
 
 /// Largest |got - want| over the largest |want|.
@@ -53,7 +62,10 @@ fn range_fft_matches_numpy() {
     let r = &g["range_fft"];
     let n = r["n"].as_u64().unwrap() as usize;
     let x = to_c32(&complexes(&r["input"]));
-    for (w, key) in [(Window::Rectangular, "fft_rect"), (Window::Hann, "fft_hann")] {
+    for (w, key) in [
+        (Window::Rectangular, "fft_rect"),
+        (Window::Hann, "fft_hann"),
+    ] {
         let mut y = x.clone();
         RangePlan::new(n, w).unwrap().process(&mut y).unwrap();
         let e = rel_err_c(&y, &complexes(&r[key]));
@@ -112,7 +124,10 @@ fn stft_and_spectrogram_match_scipy() {
         for (a, b) in plan.frequencies_hz(false).iter().zip(reals(&c["freqs"])) {
             assert!((a - b).abs() < 1e-9 * b.abs().max(1.0));
         }
-        println!("stft {window} {}: stft rel err {ez:.2e}, spectrogram rel err {es:.2e}", u("nperseg"));
+        println!(
+            "stft {window} {}: stft rel err {ez:.2e}, spectrogram rel err {es:.2e}",
+            u("nperseg")
+        );
         assert!(ez < 1e-5 && es < 1e-5, "{ez} {es}");
     }
 }

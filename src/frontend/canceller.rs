@@ -60,9 +60,10 @@ pub fn blind_speeds_mps(lambda_m: f64, chirp_interval_s: f64, count: usize) -> R
     ensure(lambda_m.is_finite() && lambda_m > 0.0, || {
         format!("wavelength {lambda_m} m is out of range; allowed: > 0")
     })?;
-    ensure(chirp_interval_s.is_finite() && chirp_interval_s > 0.0, || {
-        format!("chirp interval {chirp_interval_s} s is out of range; allowed: > 0")
-    })?;
+    ensure(
+        chirp_interval_s.is_finite() && chirp_interval_s > 0.0,
+        || format!("chirp interval {chirp_interval_s} s is out of range; allowed: > 0"),
+    )?;
     Ok((1..=count)
         .map(|n| n as f64 * lambda_m / (2.0 * chirp_interval_s))
         .collect())
@@ -306,14 +307,17 @@ impl CancellerState {
     /// output chirps were written (`chirps - order` for a fresh state, `chirps` once the
     /// history is full). No allocation.
     pub fn push_block(&mut self, block: &[Complex32], out: &mut [Complex32]) -> Result<usize> {
-        ensure(block.len() % self.cells == 0 && out.len() >= block.len(), || {
-            format!(
+        ensure(
+            block.len() % self.cells == 0 && out.len() >= block.len(),
+            || {
+                format!(
                 "canceller block length {} / output length {}; allowed: a multiple of {} and output >= block",
                 block.len(),
                 out.len(),
                 self.cells
             )
-        })?;
+            },
+        )?;
         let mut written = 0;
         for chirp in block.chunks_exact(self.cells) {
             let dst = &mut out[written * self.cells..(written + 1) * self.cells];
@@ -349,7 +353,10 @@ mod tests {
     fn names() {
         for c in Canceller::ALL {
             assert_eq!(c.name().parse::<Canceller>().unwrap(), c);
-            assert_eq!(serde_json::to_string(&c).unwrap(), format!("\"{}\"", c.name()));
+            assert_eq!(
+                serde_json::to_string(&c).unwrap(),
+                format!("\"{}\"", c.name())
+            );
         }
         let e = "four-pulse".parse::<Canceller>().unwrap_err().to_string();
         assert!(e.contains("four-pulse") && e.contains("three-pulse"));

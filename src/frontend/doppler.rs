@@ -138,7 +138,8 @@ impl RangeDopplerPlan {
                 self.buf[ki * m + mi] = v * w;
             }
         }
-        self.fft.process_with_scratch(&mut self.buf, &mut self.scratch);
+        self.fft
+            .process_with_scratch(&mut self.buf, &mut self.scratch);
         if map.cells != k || map.doppler_bins != m || map.power.dim() != (k, m) {
             *map = RangeDopplerMap::zeros(k, m, prf_hz);
         }
@@ -203,12 +204,15 @@ mod tests {
             let mut x = Vec::with_capacity(n * m);
             for mi in 0..m {
                 for ni in 0..n {
-                    let ph = 2.0 * PI * (k0 * ni) as f64 / n as f64
-                        + 2.0 * PI * f0 * mi as f64 / prf;
+                    let ph =
+                        2.0 * PI * (k0 * ni) as f64 / n as f64 + 2.0 * PI * f0 * mi as f64 / prf;
                     x.push(Complex32::new(ph.cos() as f32, ph.sin() as f32));
                 }
             }
-            RangePlan::new(n, Window::Hann).unwrap().process_block(&mut x).unwrap();
+            RangePlan::new(n, Window::Hann)
+                .unwrap()
+                .process_block(&mut x)
+                .unwrap();
             let mut plan = RangeDopplerPlan::new(m, Window::Hann).unwrap();
             let map = plan.process(&x, prf).unwrap();
             let mut best = (0, 0, 0.0f32);
@@ -235,6 +239,8 @@ mod tests {
         let mut mp = RangeDopplerMap::zeros(0, 0, 1.0);
         let e = p.process_into(&[Complex32::new(0.0, 0.0); 12], 1.0, &mut mp);
         assert!(e.unwrap_err().to_string().contains("12"));
-        assert!(p.process_into(&[Complex32::new(0.0, 0.0); 16], 0.0, &mut mp).is_err());
+        assert!(p
+            .process_into(&[Complex32::new(0.0, 0.0); 16], 0.0, &mut mp)
+            .is_err());
     }
 }

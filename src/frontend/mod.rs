@@ -17,15 +17,13 @@ pub mod shift;
 pub mod stft;
 pub mod window;
 
-
+pub use cadence::{CadenceDiagram, CadencePlan};
 pub use canceller::{Canceller, CancellerState};
-
+pub use cepstrum::{CepstrumPlan, FrameKind};
 pub use doppler::{RangeDopplerMap, RangeDopplerPlan};
 pub use normalise::{NoiseFloor, NoiseFloorParams};
-
 pub use range::RangePlan;
 pub use stft::{Scaling, StftParams, StftPlan};
-
 pub use window::Window;
 
 #[cfg(test)]

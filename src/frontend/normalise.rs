@@ -38,12 +38,15 @@ impl NoiseFloorParams {
 
     /// Validates: `smoothing` in (0, 1], `half_window <= 4096`.
     pub fn check(&self) -> Result<()> {
-        ensure(self.smoothing.is_finite() && self.smoothing > 0.0 && self.smoothing <= 1.0, || {
-            format!(
-                "noise-floor smoothing {} is out of range; allowed: 0 < smoothing <= 1",
-                self.smoothing
-            )
-        })?;
+        ensure(
+            self.smoothing.is_finite() && self.smoothing > 0.0 && self.smoothing <= 1.0,
+            || {
+                format!(
+                    "noise-floor smoothing {} is out of range; allowed: 0 < smoothing <= 1",
+                    self.smoothing
+                )
+            },
+        )?;
         ensure(self.half_window <= 4096, || {
             format!(
                 "noise-floor half window {} is out of range; allowed: 0 ..= 4096 cells",
@@ -149,7 +152,12 @@ impl NoiseFloor {
         // raw n_range(k) = median over Doppler of power / n_doppler
         self.ratios.resize(d, 0.0);
         for (ki, row) in map.power.rows().into_iter().enumerate() {
-            for ((r, &p), &nd) in self.ratios.iter_mut().zip(row.iter()).zip(&self.new_doppler) {
+            for ((r, &p), &nd) in self
+                .ratios
+                .iter_mut()
+                .zip(row.iter())
+                .zip(&self.new_doppler)
+            {
                 *r = p / nd;
             }
             self.raw_range[ki] = median_in_place(&mut self.ratios).max(TINY);
@@ -252,13 +260,14 @@ mod tests {
             let mut y = vec![Complex32::new(0.0, 0.0); x.len()];
             let n = st.push_block(&x, &mut y).unwrap();
             assert_eq!(n, chirps);
-            plan.process_into(&y[..cells * chirps], 1000.0, &mut map).unwrap();
+            plan.process_into(&y[..cells * chirps], 1000.0, &mut map)
+                .unwrap();
             floor.update(&map).unwrap();
             maps.push(map.clone());
         }
         let mut out = Array2::zeros((0, 0));
-        let mut sums = vec![0.0f64; 10];
-        let mut counts = vec![0usize; 10];
+        let mut sums = [0.0f64; 10];
+        let mut counts = [0usize; 10];
         let mut med = Vec::new();
         for m in &maps {
             floor.normalise_into(m, &mut out).unwrap();
@@ -303,7 +312,10 @@ mod tests {
 
     #[test]
     fn params_and_errors() {
-        let e = NoiseFloorParams::new(8, 0.0).check().unwrap_err().to_string();
+        let e = NoiseFloorParams::new(8, 0.0)
+            .check()
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("0 < smoothing <= 1"), "{e}");
         assert!(NoiseFloorParams::new(5000, 0.5).check().is_err());
         let f = NoiseFloor::new(NoiseFloorParams::default()).unwrap();

@@ -178,15 +178,18 @@ mod tests {
     // Eq. 8.67) evaluated naively in f64 on seeded random input.
     #[test]
     fn matches_naive_dft_with_window() {
-        for (n, w) in [(64usize, Window::Hann), (100, Window::Blackman), (37, Window::Rectangular)] {
+        for (n, w) in [
+            (64usize, Window::Hann),
+            (100, Window::Blackman),
+            (37, Window::Rectangular),
+        ] {
             let x = random_complex(n * 3, 7 + n as u64);
             let mut y = x.clone();
             let plan = RangePlan::new(n, w).unwrap();
             plan.process_block(&mut y).unwrap();
             let wc = w.coefficients(n);
             for m in 0..3 {
-                let xw: Vec<Complex32> =
-                    (0..n).map(|i| x[m * n + i] * wc[i]).collect();
+                let xw: Vec<Complex32> = (0..n).map(|i| x[m * n + i] * wc[i]).collect();
                 let want = naive_dft(&xw, -1.0);
                 let err = max_rel_err(&y[m * n..(m + 1) * n], &want);
                 assert!(err < 1e-5, "n {n} {w} chirp {m} err {err}");
@@ -202,10 +205,16 @@ mod tests {
         for k0 in [0usize, 5, 40, 63] {
             let mut x: Vec<Complex32> = (0..n)
                 .map(|i| {
-                    Complex32::from_polar(1.0, 2.0 * std::f32::consts::PI * (k0 * i) as f32 / n as f32)
+                    Complex32::from_polar(
+                        1.0,
+                        2.0 * std::f32::consts::PI * (k0 * i) as f32 / n as f32,
+                    )
                 })
                 .collect();
-            RangePlan::new(n, Window::Hann).unwrap().process(&mut x).unwrap();
+            RangePlan::new(n, Window::Hann)
+                .unwrap()
+                .process(&mut x)
+                .unwrap();
             let (kmax, vmax) = x
                 .iter()
                 .enumerate()

@@ -44,7 +44,13 @@ pub struct StftParams {
 
 impl StftParams {
     /// Parameters with `fs_hz = 1.0` (scipy's default); set it with [`StftParams::fs`].
-    pub fn new(window: Window, nperseg: usize, noverlap: usize, nfft: usize, scaling: Scaling) -> Self {
+    pub fn new(
+        window: Window,
+        nperseg: usize,
+        noverlap: usize,
+        nfft: usize,
+        scaling: Scaling,
+    ) -> Self {
         StftParams {
             window,
             nperseg,
@@ -122,7 +128,9 @@ pub struct StftPlan {
 
 impl std::fmt::Debug for StftPlan {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.debug_struct("StftPlan").field("params", &self.params).finish()
+        f.debug_struct("StftPlan")
+            .field("params", &self.params)
+            .finish()
     }
 }
 
@@ -212,7 +220,13 @@ impl StftPlan {
         Ok(frames)
     }
 
-    fn frames_unscaled(&self, x: &[Complex32], out: &mut [Complex32], scratch: &mut [Complex32], frames: usize) {
+    fn frames_unscaled(
+        &self,
+        x: &[Complex32],
+        out: &mut [Complex32],
+        scratch: &mut [Complex32],
+        frames: usize,
+    ) {
         let p = &self.params;
         let hop = p.hop();
         let out = &mut out[..frames * p.nfft];
@@ -223,7 +237,8 @@ impl StftPlan {
             }
             row[p.nperseg..].fill(Complex32::new(0.0, 0.0));
         }
-        self.fft.process_with_scratch(out, &mut scratch[..self.scratch_len]);
+        self.fft
+            .process_with_scratch(out, &mut scratch[..self.scratch_len]);
     }
 
     /// Scaled STFT of `x` into the first `frames × nfft` values of `out` (layout in the
@@ -237,7 +252,9 @@ impl StftPlan {
         let frames = self.check_io(x, out.len(), scratch)?;
         self.frames_unscaled(x, out, scratch, frames);
         let s = self.scale;
-        out[..frames * self.params.nfft].iter_mut().for_each(|v| *v *= s);
+        out[..frames * self.params.nfft]
+            .iter_mut()
+            .for_each(|v| *v *= s);
         Ok(frames)
     }
 
@@ -254,7 +271,10 @@ impl StftPlan {
         let frames = self.check_io(x, buf.len(), scratch)?;
         let need = frames * self.params.nfft;
         ensure(out.len() >= need, || {
-            format!("spectrogram output length {} is too short; allowed: >= {need}", out.len())
+            format!(
+                "spectrogram output length {} is too short; allowed: >= {need}",
+                out.len()
+            )
         })?;
         self.frames_unscaled(x, buf, scratch, frames);
         let s2 = self.scale * self.scale;
@@ -309,9 +329,27 @@ mod tests {
     fn check_errors_name_value_and_range() {
         assert!(params_ok().check().is_ok());
         let cases = [
-            (StftParams { nperseg: 0, ..params_ok() }, "nperseg = 0"),
-            (StftParams { noverlap: 64, ..params_ok() }, "noverlap = 64"),
-            (StftParams { nfft: 32, ..params_ok() }, "nfft = 32"),
+            (
+                StftParams {
+                    nperseg: 0,
+                    ..params_ok()
+                },
+                "nperseg = 0",
+            ),
+            (
+                StftParams {
+                    noverlap: 64,
+                    ..params_ok()
+                },
+                "noverlap = 64",
+            ),
+            (
+                StftParams {
+                    nfft: 32,
+                    ..params_ok()
+                },
+                "nfft = 32",
+            ),
             (params_ok().fs(-1.0), "fs = -1"),
         ];
         for (p, want) in cases {
@@ -320,7 +358,10 @@ mod tests {
             assert!(StftPlan::new(p).is_err());
         }
         let plan = StftPlan::new(params_ok()).unwrap();
-        let e = plan.stft(&random_complex(10, 1), false).unwrap_err().to_string();
+        let e = plan
+            .stft(&random_complex(10, 1), false)
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("10") && e.contains("64"), "{e}");
     }
 
@@ -360,7 +401,9 @@ mod tests {
     // |X| = 2 in its bin.
     #[test]
     fn spectrum_scaling_reads_tone_amplitude() {
-        let plan = StftPlan::new(StftParams::new(Window::Hann, 64, 32, 64, Scaling::Spectrum).fs(64.0)).unwrap();
+        let plan =
+            StftPlan::new(StftParams::new(Window::Hann, 64, 32, 64, Scaling::Spectrum).fs(64.0))
+                .unwrap();
         let x: Vec<Complex32> = (0..256)
             .map(|n| Complex32::from_polar(2.0, 2.0 * std::f32::consts::PI * 5.0 * n as f32 / 64.0))
             .collect();

@@ -77,7 +77,10 @@ impl Window {
     /// sample, i.e. denominator `D = len`. Computed in f64, returned as f32. Length 0 gives
     /// an empty vector, length 1 gives `[1.0]`.
     pub fn coefficients(self, len: usize) -> Vec<f32> {
-        self.coefficients_f64(len).into_iter().map(|v| v as f32).collect()
+        self.coefficients_f64(len)
+            .into_iter()
+            .map(|v| v as f32)
+            .collect()
     }
 
     /// [`Window::coefficients`] in f64.
@@ -160,7 +163,11 @@ mod tests {
         for (w, cg, enbw) in table {
             let c = w.coefficients(1024);
             assert!((coherent_gain(&c) - cg).abs() < 1e-3, "{w} cg");
-            assert!((enbw_bins(&c) - enbw).abs() < 6e-3, "{w} enbw {}", enbw_bins(&c));
+            assert!(
+                (enbw_bins(&c) - enbw).abs() < 6e-3,
+                "{w} enbw {}",
+                enbw_bins(&c)
+            );
         }
     }
 
