@@ -1,0 +1,328 @@
+//! Range normalisation: a separable noise-floor estimate `noise(k, d) = n_range(k) *
+//! n_doppler(d)` of a (cancelled) range-Doppler power map from medians, averaged across
+//! CPIs, so that dividing by it leaves noise of mean 1 in every cell.
+
+use ndarray::Array2;
+
+use super::doppler::RangeDopplerMap;
+use crate::error::{ensure, Result};
+
+/// Parameters of a [`NoiseFloor`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct NoiseFloorParams {
+    /// Half-width W of the median smoother across range, cells (window ±W). Default 8.
+    pub half_window: usize,
+    /// Exponential-average factor alpha in (0, 1]: `floor <- (1 - alpha) floor + alpha new`.
+    /// 1 keeps only the latest CPI. Default 0.25.
+    pub smoothing: f64,
+}
+
+impl Default for NoiseFloorParams {
+    fn default() -> Self {
+        NoiseFloorParams {
+            half_window: 8,
+            smoothing: 0.25,
+        }
+    }
+}
+
+impl NoiseFloorParams {
+    /// Parameters with the given half-window and averaging factor (unchecked; see
+    /// [`NoiseFloorParams::check`]).
+    pub fn new(half_window: usize, smoothing: f64) -> Self {
+        NoiseFloorParams {
+            half_window,
+            smoothing,
+        }
+    }
+
+    /// Validates: `smoothing` in (0, 1], `half_window <= 4096`.
+    pub fn check(&self) -> Result<()> {
+        ensure(
+            self.smoothing.is_finite() && self.smoothing > 0.0 && self.smoothing <= 1.0,
+            || {
+                format!(
+                    "noise-floor smoothing {} is out of range; allowed: 0 < smoothing <= 1",
+                    self.smoothing
+                )
+            },
+        )?;
+        ensure(self.half_window <= 4096, || {
+            format!(
+                "noise-floor half window {} is out of range; allowed: 0 ..= 4096 cells",
+                self.half_window
+            )
+        })
+    }
+}
+
+/// Median of `v` (mean of the two middle values for even length); reorders `v`.
+fn median_in_place(v: &mut [f32]) -> f32 {
+    let n = v.len();
+    if n == 0 {
+        return 0.0;
+    }
+    let (_, &mut hi, _) = v.select_nth_unstable_by(n / 2, f32::total_cmp);
+    if n % 2 == 1 {
+        hi
+    } else {
+        let lo = v[..n / 2].iter().copied().fold(f32::NEG_INFINITY, f32::max);
+        0.5 * (lo + hi)
+    }
+}
+
+/// Smallest factor value kept, so a null Doppler bin (e.g. the canceller's notch at 0 Hz
+/// on pure noise) never divides by zero.
+const TINY: f32 = 1e-30;
+
+/// A running separable noise-floor estimate.
+///
+/// Model: `noise(k, d) = n_range(k) * n_doppler(d)` with
+/// `n_doppler(d) = median_k power[k, d]` (the canceller colours the noise along Doppler)
+/// and `n_range(k) = median over |j - k| <= W of (median_d power[j, d] / n_doppler(d))`
+/// (the outer median over ±W cells keeps a target's spread across Doppler from raising
+/// its own floor). Each factor is exponentially averaged over CPIs. For exponentially
+/// distributed (square-law) noise these medians estimate `ln 2` times the mean, so
+/// [`NoiseFloor::noise`] divides the product by `ln 2` and returns the **mean** noise
+/// power: `power / noise` has mean 1 (median ln 2 ≈ 0.693) on noise alone. Linear units.
+#[derive(Debug, Clone)]
+pub struct NoiseFloor {
+    params: NoiseFloorParams,
+    n_range: Vec<f32>,
+    n_doppler: Vec<f32>,
+    updates: usize,
+    // scratch
+    column: Vec<f32>,
+    ratios: Vec<f32>,
+    raw_range: Vec<f32>,
+    new_range: Vec<f32>,
+    new_doppler: Vec<f32>,
+}
+
+impl NoiseFloor {
+    /// An empty estimate; sizes are taken from the first map.
+    pub fn new(params: NoiseFloorParams) -> Result<Self> {
+        params.check()?;
+        Ok(NoiseFloor {
+            params,
+            n_range: Vec::new(),
+            n_doppler: Vec::new(),
+            updates: 0,
+            column: Vec::new(),
+            ratios: Vec::new(),
+            raw_range: Vec::new(),
+            new_range: Vec::new(),
+            new_doppler: Vec::new(),
+        })
+    }
+
+    /// Number of maps averaged in so far.
+    pub fn updates(&self) -> usize {
+        self.updates
+    }
+
+    /// Forgets the estimate.
+    pub fn reset(&mut self) {
+        self.updates = 0;
+    }
+
+    /// Folds one map into the estimate (the first map, or a map of a new shape, restarts
+    /// it). No allocation once the shape is fixed.
+    pub fn update(&mut self, map: &RangeDopplerMap) -> Result<()> {
+        let (k, d) = map.power.dim();
+        ensure(k >= 1 && d >= 1, || {
+            format!("range-Doppler map of {k} x {d} cells; allowed: at least 1 x 1")
+        })?;
+        if self.n_range.len() != k || self.n_doppler.len() != d {
+            self.updates = 0;
+            self.n_range.resize(k, 1.0);
+            self.n_doppler.resize(d, 1.0);
+            self.new_range.resize(k, 1.0);
+            self.new_doppler.resize(d, 1.0);
+            self.raw_range.resize(k, 1.0);
+        }
+        // n_doppler(d) = median over range
+        self.column.resize(k, 0.0);
+        for di in 0..d {
+            for ki in 0..k {
+                self.column[ki] = map.power[[ki, di]];
+            }
+            self.new_doppler[di] = median_in_place(&mut self.column).max(TINY);
+        }
+        // raw n_range(k) = median over Doppler of power / n_doppler
+        self.ratios.resize(d, 0.0);
+        for (ki, row) in map.power.rows().into_iter().enumerate() {
+            for ((r, &p), &nd) in self
+                .ratios
+                .iter_mut()
+                .zip(row.iter())
+                .zip(&self.new_doppler)
+            {
+                *r = p / nd;
+            }
+            self.raw_range[ki] = median_in_place(&mut self.ratios).max(TINY);
+        }
+        // median smoothing across range, window ±W truncated at the edges
+        let w = self.params.half_window;
+        for ki in 0..k {
+            let lo = ki.saturating_sub(w);
+            let hi = (ki + w + 1).min(k);
+            self.column.clear();
+            self.column.extend_from_slice(&self.raw_range[lo..hi]);
+            self.new_range[ki] = median_in_place(&mut self.column).max(TINY);
+        }
+        self.column.resize(k, 0.0);
+        if self.updates == 0 {
+            self.n_range.copy_from_slice(&self.new_range);
+            self.n_doppler.copy_from_slice(&self.new_doppler);
+        } else {
+            let a = self.params.smoothing as f32;
+            for (o, &n) in self.n_range.iter_mut().zip(&self.new_range) {
+                *o += a * (n - *o);
+            }
+            for (o, &n) in self.n_doppler.iter_mut().zip(&self.new_doppler) {
+                *o += a * (n - *o);
+            }
+        }
+        self.updates += 1;
+        Ok(())
+    }
+
+    /// Estimated mean noise power (linear) of range cell `k`, shifted Doppler column `d`;
+    /// `None` before the first update or out of bounds.
+    pub fn noise(&self, k: usize, d: usize) -> Option<f32> {
+        if self.updates == 0 {
+            return None;
+        }
+        let r = self.n_range.get(k)?;
+        let dd = self.n_doppler.get(d)?;
+        Some(r * dd / std::f32::consts::LN_2)
+    }
+
+    /// Writes `power / noise` (linear, mean 1 on noise) into `out`, resized to the map's
+    /// shape if needed. Errors before the first update or when the map's shape differs
+    /// from the estimate's.
+    pub fn normalise_into(&self, map: &RangeDopplerMap, out: &mut Array2<f32>) -> Result<()> {
+        let (k, d) = map.power.dim();
+        ensure(self.updates > 0, || {
+            "noise floor has no estimate yet; allowed: call update() first".to_string()
+        })?;
+        ensure(k == self.n_range.len() && d == self.n_doppler.len(), || {
+            format!(
+                "map of {k} x {d} does not match the noise floor's {} x {}; allowed: the same shape",
+                self.n_range.len(),
+                self.n_doppler.len()
+            )
+        })?;
+        if out.dim() != (k, d) {
+            *out = Array2::zeros((k, d));
+        }
+        for ((ki, di), o) in out.indexed_iter_mut() {
+            let n = self.n_range[ki] * self.n_doppler[di] / std::f32::consts::LN_2;
+            *o = map.power[[ki, di]] / n;
+        }
+        Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::frontend::canceller::{Canceller, CancellerState};
+    use crate::frontend::doppler::RangeDopplerPlan;
+    use crate::frontend::testutil::random_complex;
+    use crate::frontend::window::Window;
+    use rustfft::num_complex::Complex32;
+
+    // Source: median of an exponential distribution = mean x ln 2 (e.g. Papoulis &
+    // Pillai, Probability, Random Variables and Stochastic Processes, 4th ed., exponential
+    // law; |X|^2 of circular complex Gaussian noise is exponential, Richards §6.2).
+    // Noise level rising 20 dB across range, coloured by a three-pulse canceller
+    // (|H|^2 = 16 sin^4(pi f T)), Hann Doppler window; after normalisation the mean must be
+    // 1 within 5% in every range decile.
+    #[test]
+    fn normalised_noise_has_unit_mean_at_every_range_decile() {
+        let (cells, chirps, cpis) = (200usize, 128usize, 6usize);
+        let order = Canceller::ThreePulse.order();
+        let mut floor = NoiseFloor::new(NoiseFloorParams::default()).unwrap();
+        let mut plan = RangeDopplerPlan::new(chirps, Window::Hann).unwrap();
+        let mut map = crate::frontend::doppler::RangeDopplerMap::zeros(0, 0, 1.0);
+        let mut maps = Vec::new();
+        let gain: Vec<f32> = (0..cells)
+            .map(|k| 10f32.powf(2.0 * k as f32 / (cells - 1) as f32 / 2.0)) // amplitude, 20 dB power
+            .collect();
+        for cpi in 0..cpis {
+            let mut x = random_complex(cells * (chirps + order), 1000 + cpi as u64);
+            for (i, v) in x.iter_mut().enumerate() {
+                *v *= gain[i % cells];
+            }
+            let mut st = CancellerState::new(Canceller::ThreePulse, cells, false).unwrap();
+            let mut y = vec![Complex32::new(0.0, 0.0); x.len()];
+            let n = st.push_block(&x, &mut y).unwrap();
+            assert_eq!(n, chirps);
+            plan.process_into(&y[..cells * chirps], 1000.0, &mut map)
+                .unwrap();
+            floor.update(&map).unwrap();
+            maps.push(map.clone());
+        }
+        let mut out = Array2::zeros((0, 0));
+        let mut sums = [0.0f64; 10];
+        let mut counts = [0usize; 10];
+        let mut med = Vec::new();
+        for m in &maps {
+            floor.normalise_into(m, &mut out).unwrap();
+            for ((k, _), &v) in out.indexed_iter() {
+                let dec = k * 10 / cells;
+                sums[dec] += v as f64;
+                counts[dec] += 1;
+                med.push(v);
+            }
+        }
+        for dec in 0..10 {
+            let mean = sums[dec] / counts[dec] as f64;
+            println!("range decile {dec}: normalised mean {mean:.4}");
+            assert!((mean - 1.0).abs() < 0.05, "decile {dec}: {mean}");
+        }
+        // and the median sits at ln 2 (mean 1 for an exponential law)
+        let m = median_in_place(&mut med);
+        assert!((m - std::f32::consts::LN_2).abs() < 0.03, "median {m}");
+        // the floor follows the 20 dB slope
+        let ratio = floor.noise(cells - 20, 10).unwrap() / floor.noise(20, 10).unwrap();
+        assert!((10.0 * ratio.log10() - 16.0).abs() < 1.0, "{ratio}");
+    }
+
+    // A strong target spread over a few Doppler bins of one cell does not raise that cell's
+    // floor: the median over Doppler ignores it. Common practice (order-statistic floors).
+    #[test]
+    fn target_does_not_raise_own_floor() {
+        let (k, d) = (64usize, 64usize);
+        let x = random_complex(k * d, 3);
+        let mut map = crate::frontend::doppler::RangeDopplerMap::zeros(k, d, 1.0);
+        for ((i, j), p) in map.power.indexed_iter_mut() {
+            *p = x[i * d + j].norm_sqr();
+            if i == 30 && (20..26).contains(&j) {
+                *p = 1e6;
+            }
+        }
+        let mut f = NoiseFloor::new(NoiseFloorParams::new(8, 1.0)).unwrap();
+        f.update(&map).unwrap();
+        let n = f.noise(30, 22).unwrap();
+        assert!(n < 2.0 && n > 0.5, "{n}");
+    }
+
+    #[test]
+    fn params_and_errors() {
+        let e = NoiseFloorParams::new(8, 0.0)
+            .check()
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("0 < smoothing <= 1"), "{e}");
+        assert!(NoiseFloorParams::new(5000, 0.5).check().is_err());
+        let f = NoiseFloor::new(NoiseFloorParams::default()).unwrap();
+        assert!(f.noise(0, 0).is_none());
+        let map = crate::frontend::doppler::RangeDopplerMap::zeros(2, 2, 1.0);
+        assert!(f.normalise_into(&map, &mut Array2::zeros((0, 0))).is_err());
+        let mut v = vec![3.0, 1.0, 2.0, 4.0];
+        assert_eq!(median_in_place(&mut v), 2.5);
+    }
+}
