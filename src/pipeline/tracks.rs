@@ -123,6 +123,7 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
     let range_of_cell = |c: f64| p.range_of_bin(c);
     let vel_of_bin = |d: usize| p.velocity_of_doppler((d as f64 - (m / 2) as f64) * prf / m as f64);
     let in_notch = |d: usize| notch[d];
+    let axis = notch_axis(&notch, m, prf, lambda);
     loop {
         let got = reader.read_block(&mut block, READ_CHIRPS)?;
         if got == 0 {
@@ -160,10 +161,11 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
             md.detect(norm.view(), &outside, &mut md_hits);
             md_hits.retain(|h| h.range >= skip);
             let before = dets.len();
-            add_notch_detections(&md_hits, &mut dets, p, &mut || {
+            if !md_hits.is_empty() {
                 unroll(&ring_r, pos, k, &mut cpi_r);
-                rd_raw.process_into(&cpi_r, prf, &mut raw)
-            }, &raw_peak_velocity(&notch, m, prf, lambda), &mut raw)?;
+                rd_raw.process_into(&cpi_r, prf, &mut raw)?;
+                add_notch_detections(&md_hits, &mut dets, p, &axis, &raw);
+            }
             n_notch += dets.len() - before;
             tracker.update(cpis, t_s, &dets)?;
             cpis += 1;
@@ -203,7 +205,7 @@ struct NotchAxis {
     bins: Vec<(usize, f64)>,
 }
 
-fn raw_peak_velocity(notch: &[bool], m: usize, prf: f64, lambda: f64) -> NotchAxis {
+fn notch_axis(notch: &[bool], m: usize, prf: f64, lambda: f64) -> NotchAxis {
     NotchAxis {
         bins: (0..m)
             .filter(|&d| notch[d])
@@ -214,21 +216,19 @@ fn raw_peak_velocity(notch: &[bool], m: usize, prf: f64, lambda: f64) -> NotchAx
 
 /// Turns micro-Doppler hits away from every CFAR detection into detections with the body
 /// in the notch. Their velocity is read from the uncancelled map (the strongest notch bin
-/// of the cell), computed only when needed.
+/// of the cell).
 fn add_notch_detections(
     md_hits: &[MicroDopplerHit],
     dets: &mut Vec<Detection>,
     p: &crate::recording::RadarParams,
-    make_raw: &mut dyn FnMut() -> Result<()>,
     axis: &NotchAxis,
-    raw: &mut RangeDopplerMap,
-) -> Result<()> {
+    raw: &RangeDopplerMap,
+) {
     let cell = p.range_cell_m();
     let covered = |r: f64, dets: &[Detection]| {
         dets.iter()
             .any(|d| !d.in_notch && r >= d.range_min_m - 1.5 * cell && r <= d.range_max_m + 1.5 * cell)
     };
-    let mut have_raw = false;
     let mut i = 0;
     while i < md_hits.len() {
         let mut j = i + 1;
@@ -245,10 +245,6 @@ fn add_notch_detections(
         let r_best = p.range_of_bin(best.range as f64);
         if covered(r_best, dets) {
             continue;
-        }
-        if !have_raw {
-            make_raw()?;
-            have_raw = true;
         }
         let wsum: f64 = group.iter().map(|h| (h.ratio - 1.0).max(0.0) as f64).sum();
         let centroid = if wsum > 0.0 {
@@ -277,5 +273,4 @@ fn add_notch_detections(
             in_notch: true,
         });
     }
-    Ok(())
 }

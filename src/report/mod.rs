@@ -2,6 +2,7 @@
 //! `report` reads results; it computes none.
 
 pub mod info;
+pub mod tracks;
 pub mod table;
 
 pub use table::Table;
