@@ -33,6 +33,18 @@ enum Command {
         #[arg(long, value_enum, default_value_t = Format::Table)]
         format: Format,
     },
+    /// Write labelled recordings from a scene description (TOML).
+    Simulate {
+        /// The scene file (format: labelled-demo/scenes/EXAMPLE.toml).
+        #[arg(long)]
+        scene: PathBuf,
+        /// Directory for the recordings (created if missing).
+        #[arg(long)]
+        out: PathBuf,
+        /// Random seed (overrides the scene's seeds).
+        #[arg(long)]
+        seed: Option<u64>,
+    },
     /// Range processing, clutter cancelling, CFAR and tracking; prints the tracks.
     Detect {
         /// Recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
@@ -43,6 +55,20 @@ enum Command {
         /// Output format.
         #[arg(long, value_enum, default_value_t = Format::Table)]
         format: Format,
+    },
+    /// One row per track: identifiers, matched label (empty if none), every feature.
+    Features {
+        /// Recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
+        #[arg(required_unless_present = "list")]
+        inputs: Vec<PathBuf>,
+        /// The CSV file to write.
+        #[arg(long, required_unless_present = "list")]
+        out: Option<PathBuf>,
+        /// Print the feature table (name, unit, meaning) as Markdown instead.
+        #[arg(long)]
+        list: bool,
+        #[command(flatten)]
+        process: ProcessArgs,
     },
 }
 
@@ -103,12 +129,12 @@ fn track_out(t: &pipeline::AnalysedTrack) -> report::tracks::TrackOut {
         range_m: t.track.median_range_m(),
         range_min_m: t.track.range_min_m(),
         range_max_m: t.track.range_max_m(),
-        radial_velocity_mps: t.track.median_velocity_mps(),
+        radial_velocity_mps: t.kinematics.body_velocity_mps,
         snr_db: t.track.mean_snr_db(),
         label: None,
         confidence: None,
         probabilities: None,
-        hovering: t.track.hovering(),
+        hovering: t.hovering(),
         blade_flash_hz: t.rotor.blade_flash_hz,
         tip_speed_mps: t.rotor.tip_speed_mps,
         blade_length_m: t.rotor.blade_length_m,
@@ -140,6 +166,29 @@ fn analyse_all(
         }
     }
     Ok((out, failed))
+}
+
+/// Feature rows of every track, with the label of the annotation it matches.
+fn labelled_rows(analyses: &[pipeline::RecordingAnalysis]) -> Vec<report::features_csv::FeatureRow> {
+    let mut rows = Vec::new();
+    for a in analyses {
+        let spans: Vec<_> = a.tracks.iter().map(|t| t.span()).collect();
+        let m = pipeline::match_tracks(&spans, &a.meta.annotations, &a.meta.params);
+        for (t, mi) in a.tracks.iter().zip(m) {
+            let ann = mi.map(|i| &a.meta.annotations[i]);
+            rows.push(report::features_csv::FeatureRow {
+                recording: a.meta.meta_path.display().to_string(),
+                track: t.track.id,
+                start_s: t.start_s,
+                end_s: t.end_s,
+                range_m: t.track.median_range_m(),
+                target_id: ann.and_then(|x| x.target_id.clone()),
+                label: ann.map(|x| x.label.clone()),
+                features: t.features.clone(),
+            });
+        }
+    }
+    rows
 }
 
 fn exit_code(failed: bool) -> ExitCode {
@@ -216,6 +265,42 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 Format::Table => report::info::to_table(&records).render(),
             };
             emit(&text)?;
+            Ok(exit_code(failed))
+        }
+        Command::Simulate { scene, out, seed } => {
+            std::fs::create_dir_all(&out)
+                .with_context(|| format!("creating {}", out.display()))?;
+            let metas = rotorsift::simulate::simulate_scene_file(&scene, &out, seed)?;
+            let mut text = String::new();
+            for m in metas {
+                text.push_str(&format!("{}\n", m.display()));
+            }
+            emit(&text)?;
+            Ok(ExitCode::SUCCESS)
+        }
+        Command::Features {
+            inputs,
+            out,
+            list,
+            process,
+        } => {
+            if list {
+                emit(&rotorsift::features::names::markdown_table())?;
+                return Ok(ExitCode::SUCCESS);
+            }
+            let out = out.context("--out FILE.csv is required")?;
+            let settings = process.settings();
+            settings.detect.check()?;
+            let (analyses, failed) = analyse_all(&inputs, process.channel, &settings, true)?;
+            let rows = labelled_rows(&analyses);
+            let text = report::features_csv::to_csv(&rows);
+            rotorsift::recording::write_atomic(&out, text.as_bytes())?;
+            eprintln!(
+                "rotorsift: {} tracks from {} recordings written to {}",
+                rows.len(),
+                analyses.len(),
+                out.display()
+            );
             Ok(exit_code(failed))
         }
         Command::Detect {

@@ -42,7 +42,7 @@ impl Default for FeatureSettings {
             cepstrum_window_s: 0.032,
             clutter_window_s: 0.25,
             max_track_s: 4.0,
-            flash_min_hz: 20.0,
+            flash_min_hz: 40.0,
             flash_max_hz: 1500.0,
             rotor_min_strength_db: 8.0,
         }
@@ -178,7 +178,14 @@ impl Extractor {
     }
 
     /// The feature vector (order of [`super::names::FEATURES`]) and rotor estimates.
-    pub fn extract(&mut self, x: &[Complex32], kin: &TrackKinematics) -> Result<(Vec<f64>, RotorEstimates)> {
+    /// `x` is the track's slow-time signal, `reference` the same range gate a few cells away
+    /// (the noise reference: the spectrogram's noise level is its median / ln 2).
+    pub fn extract(
+        &mut self,
+        x: &[Complex32],
+        reference: &[Complex32],
+        kin: &TrackKinematics,
+    ) -> Result<(Vec<f64>, RotorEstimates)> {
         let mut v = vec![0.0f64; count()];
         let set = |v: &mut Vec<f64>, f: F, x: f64| v[f as usize] = if x.is_finite() { x } else { 0.0 };
         set(&mut v, F::BodySpeed, kin.body_velocity_mps.abs());
@@ -195,11 +202,11 @@ impl Extractor {
             blade_length_m: None,
         };
         let max_len = (self.settings.max_track_s * self.prf) as usize;
-        let x = if x.len() > max_len {
+        let (x, reference) = if x.len() > max_len {
             let a = (x.len() - max_len) / 2;
-            &x[a..a + max_len]
+            (&x[a..a + max_len], &reference[a.min(reference.len())..(a + max_len).min(reference.len())])
         } else {
-            x
+            (x, reference)
         };
         if x.len() < self.stft.params().nperseg * 4 {
             return Ok((v, none));
@@ -225,7 +232,11 @@ impl Extractor {
         let (frames, nfft) = spec.dim();
         let dv = self.prf / nfft as f64 * self.lambda / 2.0;
         let vel = |d: usize| (d as f64 - (nfft / 2) as f64) * dv;
-        let noise = noise_level(spec.as_slice().unwrap_or(&[]));
+        let zref = self.prepare(reference, 0.0);
+        let noise = match self.stft.spectrogram(&zref, false) {
+            Ok(r) if r.nrows() > 0 => noise_level(r.as_slice().unwrap_or(&[])),
+            _ => noise_level(spec.as_slice().unwrap_or(&[])),
+        };
         let mut mean = vec![0.0f64; nfft];
         let mut maxhold = vec![0.0f64; nfft];
         for row in spec.rows() {
@@ -426,15 +437,33 @@ impl Extractor {
         if hi <= lo + 4 {
             return (0.0, 0.0);
         }
-        // Peak value of P within +-1 bin (the fundamental's bin may straddle).
+        // Whiten: divide by the local geometric mean over [f/1.4, 1.4 f], so the beats
+        // between several rotors' flash trains (a red spectrum at low rates) do not win.
+        let logp: Vec<f64> = spec.iter().map(|p| (p + 1e-30).ln()).collect();
+        let mut pre = vec![0.0f64; logp.len() + 1];
+        for (i, l) in logp.iter().enumerate() {
+            pre[i + 1] = pre[i] + l;
+        }
+        let white: Vec<f64> = (0..spec.len())
+            .map(|i| {
+                let a = ((i as f64 / 1.4) as usize).max(1);
+                let b = (((i as f64) * 1.4) as usize + 1).min(spec.len());
+                if b <= a + 2 {
+                    return 1.0;
+                }
+                let local = (pre[b] - pre[a]) / (b - a) as f64;
+                (logp[i] - local).exp()
+            })
+            .collect();
+        // Peak value within +-1 bin (the fundamental's bin may straddle).
         let at = |i: usize| {
             let a = i.saturating_sub(1);
-            let b = (i + 1).min(spec.len() - 1);
-            spec[a..=b].iter().cloned().fold(0.0, f64::max)
+            let b = (i + 1).min(white.len() - 1);
+            white[a..=b].iter().cloned().fold(0.0, f64::max)
         };
         let hs: Vec<(f64, f64)> = (lo..=hi)
             .map(|i| {
-                let s: f64 = (1..=4).filter(|k| i * k < spec.len()).map(|k| at(i * k)).sum();
+                let s: f64 = (1..=4).filter(|k| i * k < white.len()).map(|k| at(i * k)).sum();
                 (i as f64 * df, s)
             })
             .collect();
@@ -466,17 +495,17 @@ pub fn subtract_moving_mean(x: &[Complex32], w: usize) -> Vec<Complex32> {
         .collect()
 }
 
-/// Noise level of a spectrogram: its 20th percentile / 0.2231 — for exponential noise the
-/// 20th percentile is -ln(0.8) = 0.2231 of the mean (robust to targets in up to ~half of
-/// the cells).
+/// Mean noise level of a (noise-reference) spectrogram: its median / ln 2 — for
+/// exponential (square-law) noise the median is ln 2 of the mean; robust to a minority of
+/// cells holding a return.
 fn noise_level(p: &[f32]) -> f64 {
     if p.is_empty() {
         return 1.0;
     }
     let mut v: Vec<f32> = p.to_vec();
-    let k = v.len() / 5;
+    let k = v.len() / 2;
     let (_, q, _) = v.select_nth_unstable_by(k, |a, b| a.total_cmp(b));
-    (*q as f64 / 0.2231).max(1e-30)
+    (*q as f64 / std::f64::consts::LN_2).max(1e-30)
 }
 
 fn median(x: &[f64]) -> f64 {

@@ -45,6 +45,11 @@ pub struct AnalysedTrack {
 }
 
 impl AnalysedTrack {
+    /// True when the body's radial speed is under 0.5 m/s (INTERFACE.md).
+    pub fn hovering(&self) -> bool {
+        self.kinematics.body_velocity_mps.abs() < HOVER_SPEED_MPS
+    }
+
     /// The span the match rule uses.
     pub fn span(&self) -> TrackSpan {
         TrackSpan {
@@ -92,6 +97,43 @@ fn std(x: &[f64]) -> f64 {
     (x.iter().map(|a| (a - m) * (a - m)).sum::<f64>() / (x.len() - 1) as f64).sqrt()
 }
 
+fn median(x: &[f64]) -> f64 {
+    if x.is_empty() {
+        return 0.0;
+    }
+    let mut v = x.to_vec();
+    v.sort_by(|a, b| a.total_cmp(b));
+    let n = v.len();
+    if n % 2 == 1 {
+        v[n / 2]
+    } else {
+        0.5 * (v[n / 2 - 1] + v[n / 2])
+    }
+}
+
+/// Radial speed under which a track counts as hovering, m/s (INTERFACE.md).
+pub const HOVER_SPEED_MPS: f64 = 0.5;
+
+/// The body's radial velocity of a track, m/s. The per-CPI Doppler readings are the body
+/// line for most targets, but for a rotor whose body sits in the canceller notch they are
+/// blade lines that jump from CPI to CPI. So the readings are checked against the range
+/// rate (least-squares slope of range over time): the median of the readings within
+/// max(1 m/s, 20%) of the range rate when at least 30% of them are, else the range rate.
+pub fn body_velocity(t: &[f64], r: &[f64], v: &[f64]) -> f64 {
+    let dur = t.last().unwrap_or(&0.0) - t.first().unwrap_or(&0.0);
+    if v.len() < 3 || dur < 0.2 {
+        return median(v);
+    }
+    let rr = slope(t, r);
+    let tol = (0.2 * rr.abs()).max(1.0);
+    let near: Vec<f64> = v.iter().cloned().filter(|x| (x - rr).abs() <= tol).collect();
+    if near.len() * 10 >= v.len() * 3 {
+        median(&near)
+    } else {
+        rr
+    }
+}
+
 /// Kinematic summary of a track.
 pub fn kinematics(track: &Track) -> TrackKinematics {
     let t: Vec<f64> = track.points.iter().map(|p| p.t_s).collect();
@@ -100,7 +142,7 @@ pub fn kinematics(track: &Track) -> TrackKinematics {
     let snr: Vec<f64> = track.points.iter().map(|p| p.detection.snr_db).collect();
     let notch = track.points.iter().filter(|p| p.detection.in_notch).count();
     TrackKinematics {
-        body_velocity_mps: track.median_velocity_mps(),
+        body_velocity_mps: body_velocity(&t, &r, &v),
         body_speed_std_mps: std(&v),
         range_rate_mps: slope(&t, &r),
         range_extent_m: track.range_max_m() - track.range_min_m(),
@@ -138,7 +180,7 @@ pub fn analyse(
     for (i, track) in run.tracks.into_iter().enumerate() {
         let kin = kinematics(&track);
         let (features, rotor) = match (&mut extractor, signals.get(i)) {
-            (Some(ex), Some(sig)) => ex.extract(&sig.samples, &kin)?,
+            (Some(ex), Some(sig)) => ex.extract(&sig.samples, &sig.reference, &kin)?,
             _ => (
                 Vec::new(),
                 RotorEstimates {

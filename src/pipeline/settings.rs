@@ -62,7 +62,13 @@ impl Default for DetectSettings {
             skip_near_cells: 1,
             noise_half_window: 8,
             noise_smoothing: 0.25,
-            tracker: TrackerParams::default(),
+            // Association on range alone: a rotor's strongest Doppler line may be a blade
+            // line that jumps from CPI to CPI, so Doppler neither gates nor steers the rate.
+            tracker: TrackerParams {
+                velocity_gate_mps: 1.0e3,
+                velocity_gain: 0.0,
+                ..TrackerParams::default()
+            },
         }
     }
 }

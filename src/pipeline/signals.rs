@@ -1,26 +1,72 @@
-//! Pass two over a recording: for every track, the slow-time signal of the range cell it
-//! occupies, chirp by chirp, following the track's range as it migrates (the cell of the
-//! track's range interpolated between its CPIs). Range-compressed, not cancelled: the
-//! feature stage removes clutter itself with a narrow notch. Streams the recording again;
-//! memory holds only the tracks' own samples (each capped at `max_chirps`).
+//! Pass two over a recording: for every track, the slow-time signal at the track's range,
+//! chirp by chirp, following the range as it migrates (interpolated between the track's
+//! CPIs), plus a noise-reference signal a few cells away. For FMCW the range gate is the
+//! windowed DFT of the chirp evaluated at the track's *fractional* beat bin, so a mover
+//! crossing cells keeps its amplitude and phase continuous (no straddle loss, no phase jump
+//! at a cell change); range profiles use the nearest cell. Not cancelled: the feature stage
+//! removes clutter with a narrow notch. Streams the recording again; memory holds only the
+//! tracks' own samples (each capped at `max_chirps`).
 
 use rustfft::num_complex::Complex32;
 
 use super::settings::DetectSettings;
-use super::tracks::FrontEnd;
 use crate::detect::Track;
 use crate::error::Result;
-use crate::recording::{ChirpBlock, ChirpReader, RecordingMeta};
+use crate::recording::{ChirpBlock, ChirpReader, RecordingMeta, Waveform};
+
+/// Cells between a track and its noise reference.
+const REFERENCE_OFFSET_CELLS: f64 = 6.0;
 
 /// The slow-time signal of one track.
 #[derive(Debug, Clone)]
 pub struct TrackSignal {
     /// First chirp of the signal.
     pub first_chirp: usize,
-    /// One complex sample a chirp: the range-compressed value of the track's cell.
+    /// One complex sample a chirp: the range-gated value at the track's range.
     pub samples: Vec<Complex32>,
-    /// The range cell used at each chirp.
-    pub cells: Vec<u32>,
+    /// The same gate `REFERENCE_OFFSET_CELLS` away (towards the middle of the profile):
+    /// a noise reference with the same scaling.
+    pub reference: Vec<Complex32>,
+}
+
+/// Evaluates one chirp at a fractional range bin.
+struct RangeGate {
+    window: Vec<f32>,
+    fmcw: bool,
+    cells: usize,
+}
+
+impl RangeGate {
+    fn new(meta: &RecordingMeta, s: &DetectSettings) -> Self {
+        let n = meta.params.samples_per_chirp;
+        RangeGate {
+            window: s.range_window.coefficients(n),
+            fmcw: meta.params.waveform() == Waveform::FmcwBeat,
+            cells: meta.params.range_bins(),
+        }
+    }
+    /// FMCW: sum_n w[n] x[n] exp(-j 2 pi kappa n / N) (the range FFT's bin kappa, for
+    /// fractional kappa); range profile: the nearest cell.
+    fn at(&self, chirp: &[Complex32], kappa: f64) -> Complex32 {
+        if !self.fmcw {
+            let k = kappa.round().clamp(0.0, (self.cells - 1) as f64) as usize;
+            return chirp[k];
+        }
+        let n = chirp.len() as f64;
+        let step = -2.0 * std::f64::consts::PI * kappa / n;
+        let rot = (step.cos(), step.sin());
+        let (mut zr, mut zi) = (1.0f64, 0.0f64);
+        let (mut ar, mut ai) = (0.0f64, 0.0f64);
+        for (x, &w) in chirp.iter().zip(&self.window) {
+            let (xr, xi) = (x.re as f64 * w as f64, x.im as f64 * w as f64);
+            ar += xr * zr - xi * zi;
+            ai += xr * zi + xi * zr;
+            let t = zr * rot.0 - zi * rot.1;
+            zi = zr * rot.1 + zi * rot.0;
+            zr = t;
+        }
+        Complex32::new(ar as f32, ai as f32)
+    }
 }
 
 /// Chirp span of a track: its CPIs' centres widened by half a CPI on each side, clipped to
@@ -39,8 +85,9 @@ pub fn track_span(track: &Track, meta: &RecordingMeta, s: &DetectSettings, max_c
     }
 }
 
-/// Range cell of a track at time `t_s`: its range interpolated linearly between CPIs.
-fn cell_at(track: &Track, meta: &RecordingMeta, t_s: f64) -> usize {
+/// Fractional range bin of a track at time `t_s`: its range interpolated linearly between
+/// CPIs.
+fn bin_at(track: &Track, meta: &RecordingMeta, t_s: f64) -> f64 {
     let pts = &track.points;
     let r = if t_s <= pts[0].t_s {
         pts[0].detection.range_m
@@ -52,8 +99,8 @@ fn cell_at(track: &Track, meta: &RecordingMeta, t_s: f64) -> usize {
         let f = (t_s - p0.t_s) / (p1.t_s - p0.t_s).max(1e-12);
         p0.detection.range_m + f * (p1.detection.range_m - p0.detection.range_m)
     };
-    let k = meta.params.bin_of_range(r).round().max(0.0) as usize;
-    k.min(meta.params.range_bins() - 1)
+    let last = (meta.params.range_bins() - 1) as f64;
+    meta.params.bin_of_range(r).clamp(0.0, last)
 }
 
 /// Collects the slow-time signal of every track in one streaming pass.
@@ -73,7 +120,7 @@ pub fn track_signals(
         .map(|&(a, b)| TrackSignal {
             first_chirp: a,
             samples: Vec::with_capacity(b - a),
-            cells: Vec::with_capacity(b - a),
+            reference: Vec::with_capacity(b - a),
         })
         .collect();
     if tracks.is_empty() {
@@ -81,7 +128,8 @@ pub fn track_signals(
     }
     let first = spans.iter().map(|s| s.0).min().unwrap_or(0);
     let last = spans.iter().map(|s| s.1).max().unwrap_or(0);
-    let mut fe = FrontEnd::new(meta, s)?;
+    let gate = RangeGate::new(meta, s);
+    let mid = meta.params.range_bins() as f64 / 2.0;
     let mut reader = ChirpReader::open(meta, channel)?;
     reader.seek_chirp(first)?;
     let mut block = ChirpBlock::default();
@@ -95,17 +143,19 @@ pub fn track_signals(
         for i in 0..got {
             let chirp = block.first_chirp + i;
             let inside = |sp: &(usize, usize)| chirp >= sp.0 && chirp < sp.1;
-            if !spans.iter().any(inside) {
-                continue;
-            }
-            let prof = fe.range_profile(&block, i)?;
+            let x = block.chirp(i);
             for (j, sp) in spans.iter().enumerate() {
                 if !inside(sp) {
                     continue;
                 }
-                let k = cell_at(&tracks[j], meta, chirp as f64 * t);
-                out[j].samples.push(prof[k]);
-                out[j].cells.push(k as u32);
+                let kappa = bin_at(&tracks[j], meta, chirp as f64 * t);
+                let kref = if kappa < mid {
+                    kappa + REFERENCE_OFFSET_CELLS
+                } else {
+                    kappa - REFERENCE_OFFSET_CELLS
+                };
+                out[j].samples.push(gate.at(x, kappa));
+                out[j].reference.push(gate.at(x, kref));
             }
         }
         m += got;

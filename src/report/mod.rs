@@ -1,6 +1,7 @@
 //! Reports: tables, JSON and CSV exporters for results computed by the other stages.
 //! `report` reads results; it computes none.
 
+pub mod features_csv;
 pub mod info;
 pub mod tracks;
 pub mod table;
