@@ -150,14 +150,10 @@ impl Forest {
         }
         let (p, k, n) = (data.features.ncols(), data.n_classes(), train.len());
         let counts = data.class_counts(train);
-        let present = counts.iter().filter(|&&c| c > 0).count();
-        let class_weight: Vec<f64> = counts
-            .iter()
-            .map(|&c| match params.class_weight {
-                ClassWeight::Balanced if c > 0 => n as f64 / (present as f64 * c as f64),
-                _ => 1.0,
-            })
-            .collect();
+        let class_weight = match params.class_weight {
+            ClassWeight::Balanced => balanced_weights(&counts),
+            ClassWeight::None => vec![1.0; k],
+        };
         let m = params.features_drawn(p);
         let all: Vec<usize> = (0..p).collect();
         let mut trees = Vec::with_capacity(params.trees);
@@ -366,6 +362,24 @@ impl Forest {
     }
 }
 
+/// Balanced class weights `n / (k * n_c)` for class counts `n_c` (n their sum, k the
+/// number of classes with `n_c > 0`; an absent class gets 1): the formula of
+/// scikit-learn's `compute_class_weight('balanced')` (scikit-learn documentation).
+pub fn balanced_weights(counts: &[usize]) -> Vec<f64> {
+    let n: usize = counts.iter().sum();
+    let present = counts.iter().filter(|&&c| c > 0).count();
+    counts
+        .iter()
+        .map(|&c| {
+            if c > 0 {
+                n as f64 / (present as f64 * c as f64)
+            } else {
+                1.0
+            }
+        })
+        .collect()
+}
+
 /// Index of the largest value (first on ties).
 pub fn argmax(v: &[f64]) -> usize {
     let mut b = 0;
@@ -375,4 +389,32 @@ pub fn argmax(v: &[f64]) -> usize {
         }
     }
     b
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Hand arithmetic with the scikit-learn formula: counts (6, 3, 0, 1), n = 10,
+    /// k = 3 present: 10/18, 10/9, (absent) 1, 10/3.
+    #[test]
+    fn balanced_weights_known_answer() {
+        let w = balanced_weights(&[6, 3, 0, 1]);
+        let want = [10.0 / 18.0, 10.0 / 9.0, 1.0, 10.0 / 3.0];
+        for (a, b) in w.iter().zip(want) {
+            assert!((a - b).abs() < 1e-15);
+        }
+    }
+
+    #[test]
+    fn features_drawn_rounds_sqrt() {
+        let p = ForestParams::default();
+        assert_eq!(p.features_drawn(20), 4); // round(sqrt 20 = 4.47)
+        assert_eq!(p.features_drawn(1), 1);
+        let p = ForestParams {
+            feature_fraction: Some(0.01),
+            ..p
+        };
+        assert_eq!(p.features_drawn(10), 1);
+    }
 }
