@@ -70,6 +70,81 @@ enum Command {
         #[command(flatten)]
         process: ProcessArgs,
     },
+    /// Train the tree ensemble on labelled tracks; holds out whole recordings, prints the
+    /// held-out confusion matrix, writes the model.
+    Train {
+        /// Labelled recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
+        #[arg(required = true)]
+        inputs: Vec<PathBuf>,
+        /// The model file to write (JSON).
+        #[arg(long)]
+        model: PathBuf,
+        /// Share of the tracks (by whole recordings) held out for scoring.
+        #[arg(long, default_value_t = 0.3)]
+        holdout_fraction: f64,
+        /// Seed of the split and of the ensemble.
+        #[arg(long, default_value_t = 7)]
+        seed: u64,
+        /// Trees in the ensemble.
+        #[arg(long, default_value_t = 200)]
+        trees: usize,
+        /// Train on unmatched tracks too, with this label.
+        #[arg(long)]
+        unlabelled_as: Option<String>,
+        #[command(flatten)]
+        process: ProcessArgs,
+        /// Output format of the report.
+        #[arg(long, value_enum, default_value_t = Format::Table)]
+        format: Format,
+    },
+    /// Label every track, with a confidence (built-in model unless --model).
+    Classify {
+        /// Recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
+        #[arg(required = true)]
+        inputs: Vec<PathBuf>,
+        #[command(flatten)]
+        model: ModelArgs,
+        /// Output format.
+        #[arg(long, value_enum, default_value_t = Format::Table)]
+        format: Format,
+    },
+    /// Classify labelled recordings and score them against their annotations.
+    Evaluate {
+        /// Labelled recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
+        #[arg(required = true)]
+        inputs: Vec<PathBuf>,
+        #[command(flatten)]
+        model: ModelArgs,
+        /// Output format.
+        #[arg(long, value_enum, default_value_t = Format::Table)]
+        format: Format,
+    },
+}
+
+/// Which model, and how to use it.
+#[derive(clap::Args, Clone)]
+struct ModelArgs {
+    /// Model file (JSON) from `rotorsift train`; the built-in model when absent.
+    #[arg(long)]
+    model: Option<PathBuf>,
+    /// Tracks whose confidence is below this are labelled `unknown`.
+    #[arg(long, default_value_t = 0.0)]
+    min_confidence: f64,
+    /// Channel to read.
+    #[arg(long, default_value_t = 0)]
+    channel: usize,
+}
+
+impl ModelArgs {
+    fn load(&self) -> Result<pipeline::classify::Classifier> {
+        if !(0.0..=1.0).contains(&self.min_confidence) {
+            anyhow::bail!(
+                "--min-confidence {}: expected a probability in 0..1",
+                self.min_confidence
+            );
+        }
+        Ok(pipeline::classify::Classifier::load(self.model.as_deref())?)
+    }
 }
 
 /// Options of the detection path (defaults work on both waveforms without tuning).
@@ -301,6 +376,98 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 analyses.len(),
                 out.display()
             );
+            Ok(exit_code(failed))
+        }
+        Command::Train {
+            inputs,
+            model,
+            holdout_fraction,
+            seed,
+            trees,
+            unlabelled_as,
+            process,
+            format,
+        } => {
+            let settings = process.settings();
+            settings.detect.check()?;
+            let (analyses, failed) = analyse_all(&inputs, process.channel, &settings, true)?;
+            let opts = pipeline::classify::TrainOptions {
+                holdout_fraction,
+                seed,
+                trees,
+                unlabelled_as,
+            };
+            let (file, rep) = pipeline::classify::train(&analyses, &settings, &opts)?;
+            file.save(&model)?;
+            let text = match format {
+                Format::Json => serde_json::to_string_pretty(&rep)? + "\n",
+                Format::Table => format!(
+                    "trained on {} tracks ({} recordings); held out {} tracks of {} recordings; {} unmatched tracks left out\n\nheld-out confusion matrix (rows true, columns predicted):\n{}\nfeature importances (top 12):\n{}\nmodel written to {}\n",
+                    rep.train_tracks,
+                    rep.train_recordings,
+                    rep.test_tracks,
+                    rep.test_recordings.len(),
+                    rep.tracks_unmatched,
+                    report::scores::render(&rep.heldout),
+                    report::scores::importance_table(&rep.importances, 12).render(),
+                    model.display()
+                ),
+            };
+            emit(&text)?;
+            Ok(exit_code(failed))
+        }
+        Command::Classify {
+            inputs,
+            model,
+            format,
+        } => {
+            let clf = model.load()?;
+            let (analyses, failed) = analyse_all(&inputs, model.channel, &clf.settings, true)?;
+            let mut recordings = Vec::new();
+            for a in &analyses {
+                let mut tracks = Vec::new();
+                for t in &a.tracks {
+                    let p = clf.predict(&t.features, model.min_confidence)?;
+                    let mut out = track_out(t);
+                    out.label = Some(p.label);
+                    out.confidence = Some(p.confidence);
+                    out.probabilities = Some(p.probabilities);
+                    tracks.push(out);
+                }
+                recordings.push(report::tracks::RecordingOut {
+                    path: a.meta.meta_path.display().to_string(),
+                    duration_s: a.meta.duration_s(),
+                    tracks,
+                });
+            }
+            let report = report::tracks::TrackReport {
+                tool_version: rotorsift::VERSION,
+                model: Some(clf.name.clone()),
+                recordings,
+            };
+            print_tracks(&report, format)?;
+            Ok(exit_code(failed))
+        }
+        Command::Evaluate {
+            inputs,
+            model,
+            format,
+        } => {
+            let clf = model.load()?;
+            let (analyses, failed) = analyse_all(&inputs, model.channel, &clf.settings, true)?;
+            let ev = pipeline::classify::evaluate(&analyses, &clf, model.min_confidence)?;
+            let text = match format {
+                Format::Json => serde_json::to_string_pretty(&ev)? + "\n",
+                Format::Table => format!(
+                    "model {}: {} targets, {} detected, {} unmatched tracks\n\ntargets (rows true, columns predicted):\n{}",
+                    clf.name,
+                    ev.targets,
+                    ev.targets_detected,
+                    ev.tracks_unmatched,
+                    report::scores::render(&ev.scores)
+                ),
+            };
+            emit(&text)?;
             Ok(exit_code(failed))
         }
         Command::Detect {

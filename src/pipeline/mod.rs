@@ -1,6 +1,7 @@
 //! The pipeline: composes the stages (recording → tracks → features → predictions) so the
 //! command line, the benchmarks and the tests all run the same path.
 
+pub mod classify;
 pub mod matching;
 pub mod settings;
 pub mod signals;

@@ -3,6 +3,7 @@
 
 pub mod features_csv;
 pub mod info;
+pub mod scores;
 pub mod tracks;
 pub mod table;
 
