@@ -67,7 +67,7 @@ pub struct ForestParams {
     /// Class weighting (default balanced).
     pub class_weight: ClassWeight,
     /// Where feature subsets are drawn (default per split: on the synthetic grouped
-    /// blobs, per-tree subsets lost 14 points of held-out accuracy).
+    /// blobs, per-tree subsets lost 10-14 points of held-out accuracy).
     pub feature_sampling: FeatureSampling,
     /// How each tree's sample is drawn (default rows).
     pub bootstrap: Bootstrap,

@@ -12,20 +12,21 @@ use rand::Rng;
 use serde::{Deserialize, Serialize};
 
 /// Marks a leaf in [`Tree::feature`].
-pub(crate) const LEAF: u32 = u32::MAX;
+pub(crate) const LEAF: i32 = -1;
 
 /// A fitted tree. Node 0 is the root; for an internal node `i`, rows with
 /// `x[feature[i]] <= threshold[i]` go to node `child[i]`, others (and NaN) to
 /// `child[i] + 1`; children always come after their parent. For a leaf,
 /// `feature[i] == LEAF`, `threshold[i] == 0` and `child[i]` is the leaf's number `l`,
-/// whose class fractions (weighted, summing to 1) are `votes[l*k .. (l+1)*k]`.
+/// whose class fractions (weighted, summing to 1 up to f32 rounding) are
+/// `votes[l*k .. (l+1)*k]`.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub(crate) struct Tree {
-    pub feature: Vec<u32>,
+    pub feature: Vec<i32>,
     #[serde(with = "exact::vec")]
     pub threshold: Vec<f64>,
     pub child: Vec<u32>,
-    #[serde(with = "exact::vec")]
+    #[serde(with = "exact::vec32")]
     pub votes: Vec<f64>,
 }
 
@@ -185,7 +186,7 @@ impl Tree {
                     let threshold = short_threshold(b.lo, b.hi);
                     importance[b.feature] += w_node / root_w * (g_node - b.score);
                     let (li, ri) = (t.push_placeholder(), t.push_placeholder());
-                    t.feature[node] = b.feature as u32;
+                    t.feature[node] = b.feature as i32;
                     t.threshold[node] = threshold;
                     t.child[node] = li as u32;
                     let (l, r): (Vec<usize>, Vec<usize>) = idx
@@ -198,7 +199,9 @@ impl Tree {
                 _ => {
                     let leaf = t.votes.len() / k;
                     t.child[node] = leaf as u32;
-                    t.votes.extend(cls.iter().map(|&c| c / w_node));
+                    // f32 precision keeps the file short; see exact::vec32
+                    t.votes
+                        .extend(cls.iter().map(|&c| (c / w_node) as f32 as f64));
                 }
             }
         }
@@ -251,9 +254,10 @@ impl Tree {
                 })?;
             } else {
                 let (l, r) = (self.child[i] as usize, self.child[i] as usize + 1);
-                ensure((self.feature[i] as usize) < p, || {
-                    format!("tree node {i} splits on feature {} of {p}", self.feature[i])
-                })?;
+                ensure(
+                    self.feature[i] >= 0 && (self.feature[i] as usize) < p,
+                    || format!("tree node {i} splits on feature {} of {p}", self.feature[i]),
+                )?;
                 ensure(l > i && r > i && l < n && r < n, || {
                     format!("tree node {i} has children {l}, {r} out of order or range")
                 })?;
