@@ -11,6 +11,12 @@
 //! left it out) by minimising the mean negative log-likelihood with a golden-section
 //! search over `ln T` for `T` in [0.05, 20] (the NLL is convex in `1/T`, so unimodal in
 //! `ln T`).
+//!
+//! Measured on seeded synthetic grouped data (tests/model_forest.rs and the module
+//! report): with well-separated classes the averaged votes are under-confident and the
+//! out-of-bag T (about 0.55-0.75) sits close to the best T for held-out recordings,
+//! lowering their NLL by 5-27%; with heavily overlapping classes the raw votes are
+//! already close to calibrated and the fitted T may gain nothing or lose up to 1%.
 
 use super::exact;
 use crate::error::{ensure, Result};

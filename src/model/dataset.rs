@@ -380,7 +380,7 @@ mod tests {
             assert!(d.class_counts(&te).iter().all(|&c| c > 0), "seed {seed}");
             assert!(d.class_counts(&tr).iter().all(|&c| c > 0), "seed {seed}");
             let f = te.len() as f64 / d.len() as f64;
-            assert!(f >= 0.3 && f < 0.6, "seed {seed}: fraction {f}");
+            assert!((0.3..0.6).contains(&f), "seed {seed}: fraction {f}");
         }
     }
 

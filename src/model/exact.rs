@@ -43,6 +43,31 @@ pub mod vec {
     }
 }
 
+/// `#[serde(with = "exact::vec32")]` for a `Vec<f64>` whose values are all exactly
+/// representable as f32 (e.g. rounded with `as f32`): written as f32 shortest decimals
+/// (at most 9 digits), read back exactly.
+pub mod vec32 {
+    use super::*;
+    use serde::ser::SerializeSeq;
+    pub fn serialize<S: Serializer>(v: &[f64], s: S) -> Result<S::Ok, S::Error> {
+        let mut seq = s.serialize_seq(Some(v.len()))?;
+        for x in v {
+            seq.serialize_element(&format!("{:?}", *x as f32))?;
+        }
+        seq.end()
+    }
+    pub fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<Vec<f64>, D::Error> {
+        let v = Vec::<String>::deserialize(d)?;
+        v.iter()
+            .map(|s| {
+                s.parse::<f32>()
+                    .map(f64::from)
+                    .map_err(|_| serde::de::Error::custom(format!("'{s}' is not a number")))
+            })
+            .collect()
+    }
+}
+
 #[cfg(test)]
 mod tests {
     #[derive(serde::Serialize, serde::Deserialize, PartialEq, Debug)]
@@ -51,6 +76,8 @@ mod tests {
         v: Vec<f64>,
         #[serde(with = "super::one")]
         x: f64,
+        #[serde(with = "super::vec32")]
+        w: Vec<f64>,
     }
 
     /// Round trip must be bit-exact for awkward values (subnormal, 17-digit, negative
@@ -69,9 +96,15 @@ mod tests {
             1.7976931348623157e308,
             0.30000000000000004,
         ]);
+        let w32: Vec<f64> = v
+            .iter()
+            .map(|&x| x as f32 as f64)
+            .filter(|x| x.is_finite())
+            .collect();
         let w = W {
             v,
             x: 2.0f64.sqrt(),
+            w: w32,
         };
         let s = serde_json::to_string(&w).unwrap();
         let back: W = serde_json::from_str(&s).unwrap();
@@ -79,5 +112,9 @@ mod tests {
             assert_eq!(a.to_bits(), b.to_bits());
         }
         assert_eq!(w.x.to_bits(), back.x.to_bits());
+        assert!(w.w.len() > 100);
+        for (a, b) in w.w.iter().zip(&back.w) {
+            assert_eq!(a.to_bits(), b.to_bits());
+        }
     }
 }

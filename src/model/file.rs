@@ -90,9 +90,9 @@ impl ModelFile {
         self.forest.check().map_err(|e| e.to_string())
     }
 
-    /// Pretty JSON text of the model.
+    /// JSON text of the model (compact: a forest has tens of thousands of nodes).
     pub fn to_json_string(&self) -> Result<String> {
-        serde_json::to_string_pretty(self)
+        serde_json::to_string(self)
             .map_err(|e| Error::Invalid(format!("model cannot be serialised: {e}")))
     }
 

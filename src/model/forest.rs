@@ -36,6 +36,21 @@ pub enum FeatureSampling {
     PerSplit,
 }
 
+/// How each tree's training sample is drawn.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Bootstrap {
+    /// n rows drawn with replacement from the n training rows (Breiman 2001).
+    Rows,
+    /// G recordings drawn with replacement from the G training recordings, each bringing
+    /// all its rows as often as it was drawn; a row's out-of-bag trees then never saw its
+    /// recording, so the out-of-bag votes (and the temperature fitted on them) behave
+    /// like votes on new recordings.
+    Recordings,
+    /// Every tree sees every training row once; no out-of-bag votes, T stays 1.
+    None,
+}
+
 /// Forest settings; validate with [`ForestParams::check`].
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct ForestParams {
@@ -43,18 +58,19 @@ pub struct ForestParams {
     pub trees: usize,
     /// Depth limit (root has depth 0), `None` = grow until pure (default).
     pub max_depth: Option<usize>,
-    /// Minimum number of drawn samples in a leaf, >= 1 (default 1).
+    /// Minimum number of drawn samples in a leaf, >= 1 (default 3: on the synthetic
+    /// grouped blobs of the module report it beat 1 in held-out accuracy and NLL).
     pub min_samples_leaf: usize,
     /// Fraction of the p features drawn (per tree or per split), in (0, 1];
     /// `None` = sqrt(p)/p (default). The count is `round(fraction * p)`, at least 1.
     pub feature_fraction: Option<f64>,
     /// Class weighting (default balanced).
     pub class_weight: ClassWeight,
-    /// Where feature subsets are drawn (default per split; see the module report).
+    /// Where feature subsets are drawn (default per split: on the synthetic grouped
+    /// blobs, per-tree subsets lost 10-14 points of held-out accuracy).
     pub feature_sampling: FeatureSampling,
-    /// Bootstrap rows (default true); without it every tree sees all training rows and
-    /// no out-of-bag calibration is possible (T stays 1).
-    pub bootstrap: bool,
+    /// How each tree's sample is drawn (default rows).
+    pub bootstrap: Bootstrap,
     /// Seed of all randomness (default 0).
     pub seed: u64,
 }
@@ -64,11 +80,11 @@ impl Default for ForestParams {
         ForestParams {
             trees: 200,
             max_depth: None,
-            min_samples_leaf: 1,
+            min_samples_leaf: 3,
             feature_fraction: None,
             class_weight: ClassWeight::Balanced,
             feature_sampling: FeatureSampling::PerSplit,
-            bootstrap: true,
+            bootstrap: Bootstrap::Rows,
             seed: 0,
         }
     }
@@ -155,6 +171,12 @@ impl Forest {
             ClassWeight::None => vec![1.0; k],
         };
         let m = params.features_drawn(p);
+        // positions into `train` of each recording, recordings sorted by name
+        let mut by_group: std::collections::BTreeMap<&str, Vec<usize>> = Default::default();
+        for (i, &r) in train.iter().enumerate() {
+            by_group.entry(data.groups[r].as_str()).or_default().push(i);
+        }
+        let group_rows: Vec<Vec<usize>> = by_group.into_values().collect();
         let all: Vec<usize> = (0..p).collect();
         let mut trees = Vec::with_capacity(params.trees);
         let mut imp = vec![0.0; p];
@@ -164,12 +186,24 @@ impl Forest {
             let mut rng = ChaCha8Rng::seed_from_u64(params.seed);
             rng.set_stream(t as u64 + 1);
             let mut drawn = vec![0u32; n];
-            if params.bootstrap {
-                for _ in 0..n {
-                    drawn[rng.gen_range(0..n)] += 1;
+            match params.bootstrap {
+                Bootstrap::Rows => {
+                    for _ in 0..n {
+                        drawn[rng.gen_range(0..n)] += 1;
+                    }
                 }
-            } else {
-                drawn.iter_mut().for_each(|d| *d = 1);
+                Bootstrap::Recordings => {
+                    let mut times = vec![0u32; group_rows.len()];
+                    for _ in 0..group_rows.len() {
+                        times[rng.gen_range(0..group_rows.len())] += 1;
+                    }
+                    for (g, rows) in group_rows.iter().enumerate() {
+                        for &i in rows {
+                            drawn[i] = times[g];
+                        }
+                    }
+                }
+                Bootstrap::None => drawn.iter_mut().for_each(|d| *d = 1),
             }
             let (allowed, per_split) = match params.feature_sampling {
                 FeatureSampling::PerTree => {

@@ -12,7 +12,7 @@ mod tree;
 pub use calibration::Calibration;
 pub use dataset::Dataset;
 pub use file::{ModelFile, MODEL_FORMAT, MODEL_FORMAT_VERSION};
-pub use forest::{ClassWeight, FeatureSampling, Forest, ForestParams};
+pub use forest::{Bootstrap, ClassWeight, FeatureSampling, Forest, ForestParams};
 pub use metrics::{
     expected_calibration_error, multiclass_brier, ClassScores, ConfusionMatrix, Scores,
 };

@@ -12,21 +12,21 @@ use rand::Rng;
 use serde::{Deserialize, Serialize};
 
 /// Marks a leaf in [`Tree::feature`].
-pub(crate) const LEAF: u32 = u32::MAX;
+pub(crate) const LEAF: i32 = -1;
 
 /// A fitted tree. Node 0 is the root; for an internal node `i`, rows with
-/// `x[feature[i]] <= threshold[i]` go to `left[i]`, others (and NaN) to `right[i]`, and
-/// children always come after their parent. For a leaf, `feature[i] == LEAF` and
-/// `left[i]` is the leaf's number `l`, whose class fractions (weighted, summing to 1)
-/// are `votes[l*k .. (l+1)*k]`.
+/// `x[feature[i]] <= threshold[i]` go to node `child[i]`, others (and NaN) to
+/// `child[i] + 1`; children always come after their parent. For a leaf,
+/// `feature[i] == LEAF`, `threshold[i] == 0` and `child[i]` is the leaf's number `l`,
+/// whose class fractions (weighted, summing to 1 up to f32 rounding) are
+/// `votes[l*k .. (l+1)*k]`.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub(crate) struct Tree {
-    pub feature: Vec<u32>,
+    pub feature: Vec<i32>,
     #[serde(with = "exact::vec")]
     pub threshold: Vec<f64>,
-    pub left: Vec<u32>,
-    pub right: Vec<u32>,
-    #[serde(with = "exact::vec")]
+    pub child: Vec<u32>,
+    #[serde(with = "exact::vec32")]
     pub votes: Vec<f64>,
 }
 
@@ -57,9 +57,31 @@ fn gini(w: &[f64], total: f64) -> f64 {
     1.0 - w.iter().map(|&c| (c / total) * (c / total)).sum::<f64>()
 }
 
+/// A threshold `t` with `lo <= t < hi` (so the training rows split the same way as at
+/// the midpoint): the decimal of fewest significant digits inside the middle half of
+/// `[lo, hi]`, keeping the model file short and readable; the midpoint if none is found.
+fn short_threshold(lo: f64, hi: f64) -> f64 {
+    let (a, b) = (lo + (hi - lo) * 0.25, hi - (hi - lo) * 0.25);
+    let mid = lo * 0.5 + hi * 0.5;
+    for digits in 1..=17 {
+        if let Ok(t) = format!("{:.*e}", digits - 1, mid).parse::<f64>() {
+            if a <= t && t <= b && lo <= t && t < hi {
+                return t;
+            }
+        }
+    }
+    if lo <= mid && mid < hi {
+        mid
+    } else {
+        lo
+    }
+}
+
 struct Best {
     feature: usize,
-    threshold: f64,
+    /// The split lies between these consecutive distinct values.
+    lo: f64,
+    hi: f64,
     score: f64,
     n_left: usize,
 }
@@ -78,8 +100,7 @@ impl Tree {
         let mut t = Tree {
             feature: vec![],
             threshold: vec![],
-            left: vec![],
-            right: vec![],
+            child: vec![],
             votes: vec![],
         };
         let mut importance = vec![0.0; s.x.ncols()];
@@ -149,13 +170,10 @@ impl Tree {
                         }
                         let score = (wl * gl + wr * gr) / w_node;
                         if best.as_ref().map_or(true, |bb| score < bb.score) {
-                            let mut th = a * 0.5 + b * 0.5;
-                            if th >= b || th < a {
-                                th = a;
-                            }
                             best = Some(Best {
                                 feature: f,
-                                threshold: th,
+                                lo: a,
+                                hi: b,
                                 score,
                                 n_left: j + 1,
                             });
@@ -165,23 +183,25 @@ impl Tree {
             }
             match best {
                 Some(b) if g_node - b.score > 1e-12 => {
+                    let threshold = short_threshold(b.lo, b.hi);
                     importance[b.feature] += w_node / root_w * (g_node - b.score);
                     let (li, ri) = (t.push_placeholder(), t.push_placeholder());
-                    t.feature[node] = b.feature as u32;
-                    t.threshold[node] = b.threshold;
-                    t.left[node] = li as u32;
-                    t.right[node] = ri as u32;
+                    t.feature[node] = b.feature as i32;
+                    t.threshold[node] = threshold;
+                    t.child[node] = li as u32;
                     let (l, r): (Vec<usize>, Vec<usize>) = idx
                         .iter()
-                        .partition(|&&i| s.x[(s.rows[i], b.feature)] <= b.threshold);
+                        .partition(|&&i| s.x[(s.rows[i], b.feature)] <= threshold);
                     debug_assert_eq!(l.len(), b.n_left);
                     stack.push((ri, r, depth + 1));
                     stack.push((li, l, depth + 1));
                 }
                 _ => {
                     let leaf = t.votes.len() / k;
-                    t.left[node] = leaf as u32;
-                    t.votes.extend(cls.iter().map(|&c| c / w_node));
+                    t.child[node] = leaf as u32;
+                    // f32 precision keeps the file short; see exact::vec32
+                    t.votes
+                        .extend(cls.iter().map(|&c| (c / w_node) as f32 as f64));
                 }
             }
         }
@@ -191,8 +211,7 @@ impl Tree {
     fn push_placeholder(&mut self) -> usize {
         self.feature.push(LEAF);
         self.threshold.push(0.0);
-        self.left.push(0);
-        self.right.push(0);
+        self.child.push(0);
         self.feature.len() - 1
     }
 
@@ -204,14 +223,11 @@ impl Tree {
         loop {
             let f = self.feature[i];
             if f == LEAF {
-                let l = self.left[i] as usize * k;
+                let l = self.child[i] as usize * k;
                 return &self.votes[l..l + k];
             }
-            i = if row[f as usize] <= self.threshold[i] {
-                self.left[i]
-            } else {
-                self.right[i]
-            } as usize;
+            let go_left = row[f as usize] <= self.threshold[i]; // false for NaN
+            i = self.child[i] as usize + if go_left { 0 } else { 1 };
         }
     }
 
@@ -221,7 +237,7 @@ impl Tree {
     pub fn check(&self, p: usize, k: usize) -> Result<()> {
         let n = self.feature.len();
         ensure(
-            n >= 1 && self.threshold.len() == n && self.left.len() == n && self.right.len() == n,
+            n >= 1 && self.threshold.len() == n && self.child.len() == n,
             || "tree arrays are empty or of unequal length".to_string(),
         )?;
         ensure(k >= 1 && self.votes.len() % k == 0, || {
@@ -233,14 +249,15 @@ impl Tree {
         let leaves = self.votes.len() / k;
         for i in 0..n {
             if self.feature[i] == LEAF {
-                ensure((self.left[i] as usize) < leaves, || {
-                    format!("tree node {i} names leaf {} of {leaves}", self.left[i])
+                ensure((self.child[i] as usize) < leaves, || {
+                    format!("tree node {i} names leaf {} of {leaves}", self.child[i])
                 })?;
             } else {
-                let (l, r) = (self.left[i] as usize, self.right[i] as usize);
-                ensure((self.feature[i] as usize) < p, || {
-                    format!("tree node {i} splits on feature {} of {p}", self.feature[i])
-                })?;
+                let (l, r) = (self.child[i] as usize, self.child[i] as usize + 1);
+                ensure(
+                    self.feature[i] >= 0 && (self.feature[i] as usize) < p,
+                    || format!("tree node {i} splits on feature {} of {p}", self.feature[i]),
+                )?;
                 ensure(l > i && r > i && l < n && r < n, || {
                     format!("tree node {i} has children {l}, {r} out of order or range")
                 })?;
@@ -304,7 +321,8 @@ mod tests {
     /// bootstrap, the root split and both second-level splits must use the same feature
     /// and send the same training rows left. (linfa places a child's threshold midway to
     /// the next value of the *whole* training set, not of the node, so thresholds below
-    /// the root may differ while partitioning the node's rows identically.)
+    /// the root may differ while partitioning the node's rows identically; and we store
+    /// the shortest decimal inside the middle half of the gap, not the midpoint.)
     #[test]
     fn top_splits_match_linfa() {
         for seed in 0..5 {
@@ -315,9 +333,12 @@ mod tests {
             let root = theirs.root_node();
             let (f, t, _) = root.split();
             assert_eq!(ours.feature[0] as usize, f, "seed {seed}");
-            assert!((ours.threshold[0] - t).abs() < 1e-12, "seed {seed}");
+            for r in 0..y.len() {
+                let v = x[(r, f)];
+                assert_eq!(v <= t, v <= ours.threshold[0], "seed {seed} row {r}");
+            }
             let kids = root.children();
-            for (side, ours_child) in [(0, ours.left[0]), (1, ours.right[0])] {
+            for (side, ours_child) in [(0, ours.child[0]), (1, ours.child[0] + 1)] {
                 let c = kids[side].as_ref().unwrap();
                 let i = ours_child as usize;
                 assert_eq!(
@@ -346,7 +367,7 @@ mod tests {
     }
 
     /// A tree grown to purity classifies its own distinct training rows exactly, and the
-    /// stored structure passes `check`; a depth-1 stump has 3 nodes.
+    /// stored structure passes `check`; a depth-1 stump has 3 nodes; thresholds are short.
     #[test]
     fn pure_tree_fits_training_rows() {
         let (x, y) = two_class(200, 4, 9);
@@ -357,8 +378,11 @@ mod tests {
             assert_eq!(v[c], 1.0);
         }
         assert_eq!(grow_all(&x, &y, Some(1)).feature.len(), 3);
+        assert_eq!(short_threshold(0.123456, 0.1301), 0.127); // middle half [0.12507, 0.12853]
+        assert_eq!(short_threshold(1.0, 1.0 + f64::EPSILON), 1.0);
+        assert_eq!(short_threshold(-3.99, -3.01), -3.5);
         let mut bad = t.clone();
-        bad.left[0] = 0;
+        bad.child[0] = 0;
         assert!(bad.check(4, 2).is_err());
         assert!(t.check(1, 2).is_err());
     }
@@ -383,9 +407,10 @@ mod tests {
             features_per_split: 1,
         };
         let (t, imp) = Tree::grow(&s, &[0], &p, &mut ChaCha8Rng::seed_from_u64(0));
-        assert_eq!(t.threshold[0], 2.5);
+        assert_eq!(t.threshold[0], 2.5); // shortest decimal in [2.25, 2.75]
         assert!((imp[0] - 0.5).abs() < 1e-15);
         assert_eq!(t.leaf_votes(&[2.5], 2), &[1.0, 0.0]);
         assert_eq!(t.leaf_votes(&[2.6], 2), &[0.0, 1.0]);
+        assert_eq!(t.leaf_votes(&[f64::NAN], 2), &[0.0, 1.0]);
     }
 }
