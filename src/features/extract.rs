@@ -238,11 +238,9 @@ impl Extractor {
             _ => noise_level(spec.as_slice().unwrap_or(&[])),
         };
         let mut mean = vec![0.0f64; nfft];
-        let mut maxhold = vec![0.0f64; nfft];
         for row in spec.rows() {
             for (d, &p) in row.iter().enumerate() {
                 mean[d] += p as f64;
-                maxhold[d] = maxhold[d].max(p as f64);
             }
         }
         for m in mean.iter_mut() {
@@ -250,11 +248,19 @@ impl Extractor {
         }
         let excess: Vec<f64> = mean.iter().map(|m| (m - noise).max(0.0)).collect();
         let total: f64 = excess.iter().sum();
-        // Max-hold threshold: 6 dB over the expected maximum of `frames` exponential noise
-        // values (ln F + Euler's gamma times the mean; common practice for order statistics).
-        let thr = noise * ((frames as f64).ln() + 0.5772) * 4.0;
+        // Extent: the mean spectrum (3-bin smoothed) stands out of the noise by 5 standard
+        // errors of a mean of `frames` exponential values (noise / sqrt(F)), and by at
+        // least 1.5 dB (the noise reference is another cell).
+        let thr = noise * (1.0 + 5.0 / (frames as f64).sqrt()).max(10f64.powf(0.15));
+        let smooth: Vec<f64> = (0..nfft)
+            .map(|d| {
+                let a = d.saturating_sub(1);
+                let b = (d + 1).min(nfft - 1);
+                mean[a..=b].iter().sum::<f64>() / (b - a + 1) as f64
+            })
+            .collect();
         let extent = (0..nfft)
-            .filter(|&d| maxhold[d] > thr)
+            .filter(|&d| smooth[d] > thr)
             .map(|d| vel(d).abs())
             .fold(0.0, f64::max);
         set(&mut v, F::MdExtent, extent);
@@ -467,7 +473,30 @@ impl Extractor {
                 (i as f64 * df, s)
             })
             .collect();
-        peak_over_median(&hs)
+        let (f_best, db) = peak_over_median(&hs);
+        // A harmonic may win the sum when the flashes are short (many equal harmonics):
+        // take the lowest subharmonic f/k (k = 4, 3, 2) whose sum is within 70% of the peak
+        // and which is itself a line (at least half the winner's line, 3x the background).
+        let hs_at = |f: f64| {
+            let i = (f / df).round() as usize;
+            if i < lo {
+                return 0.0;
+            }
+            (1..=4).filter(|k| i * k < white.len()).map(|k| at(i * k)).sum::<f64>()
+        };
+        let peak = hs_at(f_best);
+        let line = |f: f64| at((f / df).round() as usize);
+        let line_best = line(f_best);
+        for k in (2..=4).rev() {
+            let f = f_best / k as f64;
+            if f >= self.settings.flash_min_hz
+                && hs_at(f) >= 0.7 * peak
+                && line(f) >= (0.5 * line_best).max(3.0)
+            {
+                return (f, db);
+            }
+        }
+        (f_best, db)
     }
 }
 
