@@ -29,7 +29,8 @@ pub struct RadarSpec {
     pub samples_per_chirp: usize,
     /// T, chirp interval, s.
     pub chirp_interval_s: f64,
-    /// fs, ADC rate, Hz (required for FMCW; informational for range profiles).
+    /// fs, ADC rate, Hz (required for FMCW; informational for range profiles, default
+    /// there the range-gate rate c / (2 range_cell_m)).
     #[serde(default)]
     pub sample_rate_hz: Option<f64>,
     /// B, swept bandwidth, Hz (FMCW).
@@ -90,7 +91,12 @@ impl RadarSpec {
                 },
             ),
             Waveform::RangeProfile => (
-                self.sample_rate_hz.unwrap_or(0.0),
+                // range-gate rate c / (2 cell) unless given (SigMF needs a rate > 0)
+                match (self.sample_rate_hz, self.range_cell_m) {
+                    (Some(f), _) => f,
+                    (None, Some(cell)) if cell > 0.0 => C / (2.0 * cell),
+                    _ => 1.0 / self.chirp_interval_s,
+                },
                 RangeAxis::RangeProfile {
                     range_cell_m: need(self.range_cell_m, "range_cell_m")?,
                     range_start_m: self.range_start_m.unwrap_or(0.0),
