@@ -60,7 +60,11 @@ pub fn class_of_wind(wind_mph: f64) -> &'static str {
 pub fn shaping_filter(len: usize, chirp_interval_s: f64, wavelength_m: f64, beta: f64) -> Vec<f64> {
     let mut h: Vec<f64> = (0..len)
         .map(|k| {
-            let kk = if k < len / 2 { k as f64 } else { k as f64 - len as f64 };
+            let kk = if k < len / 2 {
+                k as f64
+            } else {
+                k as f64 - len as f64
+            };
             let f = kk / (len as f64 * chirp_interval_s);
             let v = f * wavelength_m / 2.0;
             (-beta * v.abs()).exp().sqrt()
@@ -246,11 +250,17 @@ impl Source for Vegetation {
         m.insert("wind_mph".into(), json!(self.spec.wind_mph));
         m.insert("dc_ac_ratio".into(), json!((self.r * 1e4).round() / 1e4));
         m.insert("beta_per_mps".into(), json!(self.beta));
-        m.insert("rcs_dbsm_per_cell".into(), json!(self.spec.rcs_dbsm_per_cell));
+        m.insert(
+            "rcs_dbsm_per_cell".into(),
+            json!(self.spec.rcs_dbsm_per_cell),
+        );
         let snr = ctx
             .budget
             .snr(db_to_lin(self.spec.rcs_dbsm_per_cell), median_range_m);
-        m.insert("cell_snr_per_sample_db".into(), json!((lin_to_db(snr) * 1000.0).round() / 1000.0));
+        m.insert(
+            "cell_snr_per_sample_db".into(),
+            json!((lin_to_db(snr) * 1000.0).round() / 1000.0),
+        );
         m
     }
 }

@@ -126,11 +126,18 @@ fn median(v: &mut [f64]) -> f64 {
 /// The annotation of each annotated object: the longest stretch of whole chirps while it
 /// is present and inside the range coverage; range window over it plus the object's
 /// extent; truth with the median radial velocity and hovering (median |v_r| < 0.5 m/s).
-fn annotate(scene: &Scene, ctx: &Ctx, sources: &[Box<dyn Source>], total: usize) -> Vec<Annotation> {
+fn annotate(
+    scene: &Scene,
+    ctx: &Ctx,
+    sources: &[Box<dyn Source>],
+    total: usize,
+) -> Vec<Annotation> {
     let t_chirp = ctx.params.chirp_interval_s;
     let mut out = Vec::new();
     for (obj, src) in scene.objects.iter().zip(sources) {
-        let Some(label) = obj.annotation_label() else { continue };
+        let Some(label) = obj.annotation_label() else {
+            continue;
+        };
         let inside = |m: usize| {
             src.kinematics(m as f64 * t_chirp)
                 .is_some_and(|(p, _)| ctx.in_coverage(norm(p)))
@@ -170,7 +177,10 @@ fn annotate(scene: &Scene, ctx: &Ctx, sources: &[Box<dyn Source>], total: usize)
         }
         let ext = src.extent_m();
         let (lo, hi) = match src.fixed_span() {
-            Some((a, b)) => (a - ctx.params.range_cell_m() / 2.0, b + ctx.params.range_cell_m() / 2.0),
+            Some((a, b)) => (
+                a - ctx.params.range_cell_m() / 2.0,
+                b + ctx.params.range_cell_m() / 2.0,
+            ),
             None => (rmin - ext, rmax + ext),
         };
         let r_med = median(&mut rs);
@@ -181,7 +191,10 @@ fn annotate(scene: &Scene, ctx: &Ctx, sources: &[Box<dyn Source>], total: usize)
             .map_or([r_med, 0.0, 0.0], |k| k.0);
         let mut truth = Map::new();
         truth.insert("kind".into(), json!(obj.kind()));
-        truth.insert("radial_velocity_mps".into(), json!((v_med * 1000.0).round() / 1000.0));
+        truth.insert(
+            "radial_velocity_mps".into(),
+            json!((v_med * 1000.0).round() / 1000.0),
+        );
         truth.insert("hovering".into(), json!(s_med < 0.5));
         truth.insert("range_m".into(), json!((r_med * 1000.0).round() / 1000.0));
         for (k, v) in src.truth(ctx, r_med.max(1e-3), mid_pos) {
@@ -204,7 +217,11 @@ fn annotate(scene: &Scene, ctx: &Ctx, sources: &[Box<dyn Source>], total: usize)
 /// recording `out_dir/NAME.sigmf-{meta,data}` per run; returns the meta paths in run order.
 /// Run i uses `seed + i` when `seed` is given, else the run's own seed (see
 /// [`Scene::parse_all`]). Integer recordings use the fixed scale [`CI16_SCALE`].
-pub fn simulate_scene_file(scene: &Path, out_dir: &Path, seed: Option<u64>) -> Result<Vec<PathBuf>> {
+pub fn simulate_scene_file(
+    scene: &Path,
+    out_dir: &Path,
+    seed: Option<u64>,
+) -> Result<Vec<PathBuf>> {
     let runs = Scene::load(scene)?;
     std::fs::create_dir_all(out_dir).map_err(|e| Error::io(out_dir, e))?;
     let scene_name = scene
@@ -219,7 +236,11 @@ pub fn simulate_scene_file(scene: &Path, out_dir: &Path, seed: Option<u64>) -> R
         let base = out_dir.join(&run.name);
         let mut w = RecordingWriter::create(&base, &params, dt, scale)?;
         let mut clipped = 0u64;
-        let lim = if dt == crate::recording::DataType::Ci16Le { 1.0 / scale } else { f32::INFINITY };
+        let lim = if dt == crate::recording::DataType::Ci16Le {
+            1.0 / scale
+        } else {
+            f32::INFINITY
+        };
         let anns = simulate(run, run_seed, &mut |b| {
             clipped += b
                 .iter()
@@ -241,7 +262,10 @@ pub fn simulate_scene_file(scene: &Path, out_dir: &Path, seed: Option<u64>) -> R
         if let Some(site) = &run.site {
             g.insert("rotorsift:site".into(), json!(site));
         }
-        g.insert("core:recorder".into(), json!(format!("rotorsift {} simulate", crate::VERSION)));
+        g.insert(
+            "core:recorder".into(),
+            json!(format!("rotorsift {} simulate", crate::VERSION)),
+        );
         g.insert("rotorsift:sim_seed".into(), json!(run_seed));
         g.insert("rotorsift:sim_sample_scale".into(), json!(scale));
         g.insert("rotorsift:sim_clipped_samples".into(), json!(clipped));

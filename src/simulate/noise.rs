@@ -53,7 +53,11 @@ mod tests {
         let n = v.len() as f64;
         let p: f64 = v.iter().map(|z| z.norm_sqr() as f64).sum::<f64>() / n;
         let pr: f64 = v.iter().map(|z| (z.re * z.re) as f64).sum::<f64>() / n;
-        let mean: Complex64 = v.iter().map(|z| Complex64::new(z.re as f64, z.im as f64)).sum::<Complex64>() / n;
+        let mean: Complex64 = v
+            .iter()
+            .map(|z| Complex64::new(z.re as f64, z.im as f64))
+            .sum::<Complex64>()
+            / n;
         assert!((p - 1.0).abs() < 0.01, "{p}");
         assert!((pr - 0.5).abs() < 0.01, "{pr}");
         assert!(mean.norm() < 0.01);

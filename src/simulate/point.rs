@@ -64,7 +64,11 @@ impl PointSource {
             Some((a, w, ph)) => {
                 let r = r0 + a * (w * t + ph).sin();
                 let s = r / r0.max(1e-9);
-                Some((r, [p[0] * s, p[1] * s, p[2] * s], a * w * (w * t + ph).cos()))
+                Some((
+                    r,
+                    [p[0] * s, p[1] * s, p[2] * s],
+                    a * w * (w * t + ph).cos(),
+                ))
             }
         }
     }
@@ -72,7 +76,9 @@ impl PointSource {
 
 impl Source for PointSource {
     fn add(&mut self, t: f64, ctx: &Ctx, sig: &mut [Complex32]) {
-        let Some((r, _, _)) = self.range_vel(t) else { return };
+        let Some((r, _, _)) = self.range_vel(t) else {
+            return;
+        };
         if r <= 0.0 || !ctx.in_coverage(r) {
             return;
         }
@@ -96,7 +102,10 @@ impl Source for PointSource {
         }
         m.insert("rcs_dbsm".into(), json!(self.rcs_dbsm));
         let snr = ctx.budget.snr(db_to_lin(self.rcs_dbsm), median_range_m) * ctx.coherent_gain();
-        m.insert("snr_db".into(), json!((lin_to_db(snr) * 1000.0).round() / 1000.0));
+        m.insert(
+            "snr_db".into(),
+            json!((lin_to_db(snr) * 1000.0).round() / 1000.0),
+        );
         m
     }
 }

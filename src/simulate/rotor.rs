@@ -27,7 +27,12 @@ pub fn sinc(x: f64) -> f64 {
 /// sinc(Phi) exp(+j Phi) with Phi = 2 pi L cos(beta) cos(theta - az) / lambda
 /// (Chen 2011 ch. 4: the integral of exp(+j 4 pi l cos(beta) cos(theta - az) / lambda)
 /// over l in [0, L], divided by L). `theta_minus_az` in rad, lengths in m.
-pub fn blade_factor(blade_length_m: f64, wavelength_m: f64, cos_beta: f64, theta_minus_az: f64) -> Complex64 {
+pub fn blade_factor(
+    blade_length_m: f64,
+    wavelength_m: f64,
+    cos_beta: f64,
+    theta_minus_az: f64,
+) -> Complex64 {
     let phi = 2.0 * PI * blade_length_m * cos_beta * theta_minus_az.cos() / wavelength_m;
     Complex64::from_polar(sinc(phi), phi)
 }
@@ -44,7 +49,12 @@ pub fn blade_flash_hz(blades: usize, rotor_rate_hz: f64) -> f64 {
 
 /// Time average of sum_k sinc^2(Phi_k) over one revolution for one rotor (numerically),
 /// the mean power of its blades relative to one blade at flash.
-pub fn mean_blade_power(blades: usize, blade_length_m: f64, wavelength_m: f64, cos_beta: f64) -> f64 {
+pub fn mean_blade_power(
+    blades: usize,
+    blade_length_m: f64,
+    wavelength_m: f64,
+    cos_beta: f64,
+) -> f64 {
     let steps = 7200;
     let mut acc = 0.0;
     for i in 0..steps {
@@ -125,7 +135,9 @@ impl Source for Rotorcraft {
     }
 
     fn extent_m(&self) -> f64 {
-        self.spec.arm_length_m.unwrap_or(if self.spec.rotors == 1 { 0.0 } else { 0.2 })
+        self.spec
+            .arm_length_m
+            .unwrap_or(if self.spec.rotors == 1 { 0.0 } else { 0.2 })
             + self.spec.blade_length_m
     }
 
@@ -144,7 +156,11 @@ impl Source for Rotorcraft {
         let l = self.spec.blade_length_m;
         let a_bl = amp * self.sqrt_blade;
         for rot in &self.rotors {
-            let hub = [p[0] + rot.offset[0], p[1] + rot.offset[1], p[2] + rot.offset[2]];
+            let hub = [
+                p[0] + rot.offset[0],
+                p[1] + rot.offset[1],
+                p[2] + rot.offset[2],
+            ];
             let rh = norm(hub);
             let cos_beta = (hub[0] * hub[0] + hub[1] * hub[1]).sqrt() / rh;
             let az = hub[1].atan2(hub[0]);
@@ -163,8 +179,12 @@ impl Source for Rotorcraft {
         let l = self.spec.blade_length_m;
         let rh = norm(median_pos).max(1e-9);
         let cos_beta = (median_pos[0].powi(2) + median_pos[1].powi(2)).sqrt() / rh;
-        let snr_body = ctx.budget.snr(db_to_lin(self.spec.body_rcs_dbsm), median_range_m);
-        let snr_blade1 = ctx.budget.snr(db_to_lin(self.spec.blade_rcs_dbsm), median_range_m);
+        let snr_body = ctx
+            .budget
+            .snr(db_to_lin(self.spec.body_rcs_dbsm), median_range_m);
+        let snr_blade1 = ctx
+            .budget
+            .snr(db_to_lin(self.spec.blade_rcs_dbsm), median_range_m);
         let blades_power = self.spec.rotors as f64
             * mean_blade_power(self.spec.blades, l, ctx.lambda, cos_beta)
             * snr_blade1;
@@ -185,8 +205,14 @@ impl Source for Rotorcraft {
         );
         m.insert("body_rcs_dbsm".into(), json!(self.spec.body_rcs_dbsm));
         m.insert("blade_rcs_dbsm".into(), json!(self.spec.blade_rcs_dbsm));
-        m.insert("body_snr_db".into(), json!(round3(lin_to_db(snr_body * gain))));
-        m.insert("blade_snr_db".into(), json!(round3(lin_to_db(blades_power * gain))));
+        m.insert(
+            "body_snr_db".into(),
+            json!(round3(lin_to_db(snr_body * gain))),
+        );
+        m.insert(
+            "blade_snr_db".into(),
+            json!(round3(lin_to_db(blades_power * gain))),
+        );
         m
     }
 }

@@ -29,7 +29,8 @@ pub struct RadarSpec {
     pub samples_per_chirp: usize,
     /// T, chirp interval, s.
     pub chirp_interval_s: f64,
-    /// fs, ADC rate, Hz (required for FMCW; informational for range profiles).
+    /// fs, ADC rate, Hz (required for FMCW; informational for range profiles, default
+    /// there the range-gate rate c / (2 range_cell_m)).
     #[serde(default)]
     pub sample_rate_hz: Option<f64>,
     /// B, swept bandwidth, Hz (FMCW).
@@ -90,7 +91,12 @@ impl RadarSpec {
                 },
             ),
             Waveform::RangeProfile => (
-                self.sample_rate_hz.unwrap_or(0.0),
+                // range-gate rate c / (2 cell) unless given (SigMF needs a rate > 0)
+                match (self.sample_rate_hz, self.range_cell_m) {
+                    (Some(f), _) => f,
+                    (None, Some(cell)) if cell > 0.0 => C / (2.0 * cell),
+                    _ => 1.0 / self.chirp_interval_s,
+                },
                 RangeAxis::RangeProfile {
                     range_cell_m: need(self.range_cell_m, "range_cell_m")?,
                     range_start_m: self.range_start_m.unwrap_or(0.0),
@@ -104,7 +110,8 @@ impl RadarSpec {
             chirp_interval_s: self.chirp_interval_s,
             range_axis: axis,
         };
-        p.check().map_err(|e| Error::Invalid(format!("radar: {e}")))?;
+        p.check()
+            .map_err(|e| Error::Invalid(format!("radar: {e}")))?;
         Ok(p)
     }
 
@@ -267,7 +274,7 @@ pub struct BirdSpec {
     /// Mean body RCS, dBsm (default -25).
     #[serde(default = "default_bird_rcs")]
     pub body_rcs_dbsm: f64,
-    /// RCS of one whole wing seen broadside, dBsm (default body - 6).
+    /// RCS of one whole wing seen broadside, dBsm (default body - 10).
     #[serde(default)]
     pub wing_rcs_dbsm: Option<f64>,
     /// Log-normal body RCS fluctuation, dB rms (default 3).
@@ -515,7 +522,8 @@ impl Scene {
         } else {
             if f.name.is_some() || f.duration_s.is_some() || !f.object.is_empty() {
                 return Err(Error::Invalid(
-                    "top-level name/duration_s/[[object]] and [[run]] are both given: use one form".into(),
+                    "top-level name/duration_s/[[object]] and [[run]] are both given: use one form"
+                        .into(),
                 ));
             }
             for (i, r) in f.run.into_iter().enumerate() {
@@ -620,7 +628,9 @@ fn finite_pos(key: &str, v: f64) -> Result<()> {
     if v.is_finite() && v > 0.0 {
         Ok(())
     } else {
-        Err(Error::Invalid(format!("{key} = {v}: expected a finite number > 0")))
+        Err(Error::Invalid(format!(
+            "{key} = {v}: expected a finite number > 0"
+        )))
     }
 }
 
@@ -628,7 +638,9 @@ fn range(key: &str, v: f64, lo: f64, hi: f64) -> Result<()> {
     if v.is_finite() && v >= lo && v <= hi {
         Ok(())
     } else {
-        Err(Error::Invalid(format!("{key} = {v}: expected a number in [{lo}, {hi}]")))
+        Err(Error::Invalid(format!(
+            "{key} = {v}: expected a number in [{lo}, {hi}]"
+        )))
     }
 }
 

@@ -12,7 +12,8 @@ use super::motion::{Trajectory, V3};
 
 /// Kinematics of a trajectory: position and radial velocity while active.
 pub fn traj_kinematics(tr: &Trajectory, t: f64) -> Option<(V3, f64)> {
-    tr.active(t).then(|| (tr.position(t), tr.radial_velocity(t)))
+    tr.active(t)
+        .then(|| (tr.position(t), tr.radial_velocity(t)))
 }
 use super::radar_eq::LinkBudget;
 use crate::recording::{RadarParams, Waveform};
