@@ -20,7 +20,7 @@ RADARS = {
                    sweep_duration_s=32e-6, transmit_power_w=0.1, tx_gain_dbi=20.0,
                    rx_gain_dbi=20.0, noise_figure_db=8.0, losses_db=2.0, datatype="ci16_le",
                    phase_jitter_rad=0.002),
-        duration=2.0, cover=(12.0, 88.0), runs=24, tip=(40.0, 62.0)),
+        duration=1.5, cover=(12.0, 88.0), runs=24, tip=(40.0, 62.0)),
     "k77": dict(
         title="77 GHz short-range FMCW sensor",
         table=dict(waveform="fmcw-beat", carrier_hz=77.0e9, samples_per_chirp=64,

@@ -153,17 +153,18 @@ struct ProcessArgs {
     /// Channel to read (core:num_channels interleaves channels).
     #[arg(long, default_value_t = 0)]
     channel: usize,
-    /// Chirps per coherent processing interval (Doppler FFT length).
-    #[arg(long, default_value_t = 256)]
+    /// Chirps per coherent processing interval (Doppler FFT length); 0 = automatic
+    /// (about 25.6 ms, a power of two, at least 256).
+    #[arg(long, default_value_t = 0)]
     cpi: usize,
-    /// Chirps from one CPI to the next (default: half the CPI).
-    #[arg(long)]
-    hop: Option<usize>,
+    /// Chirps from one CPI to the next (0: half the CPI).
+    #[arg(long, default_value_t = 0)]
+    hop: usize,
     /// Clutter canceller: none, two-pulse, three-pulse.
     #[arg(long, default_value = "three-pulse", value_parser = parse_canceller)]
     canceller: Canceller,
-    /// Rotate each chirp to its predecessor's common phase before cancelling.
-    #[arg(long)]
+    /// Phase-align each chirp to its predecessor before cancelling: on or off.
+    #[arg(long, default_value = "on", value_parser = parse_on_off, action = clap::ArgAction::Set)]
     phase_align: bool,
     /// CFAR kind: ca (cell averaging) or os (ordered statistic).
     #[arg(long, default_value = "ca", value_parser = parse_cfar)]
@@ -177,6 +178,14 @@ fn parse_canceller(s: &str) -> std::result::Result<Canceller, String> {
     s.parse::<Canceller>().map_err(|e| e.to_string())
 }
 
+fn parse_on_off(s: &str) -> std::result::Result<bool, String> {
+    match s {
+        "on" => Ok(true),
+        "off" => Ok(false),
+        _ => Err(format!("{s:?}: expected on or off")),
+    }
+}
+
 fn parse_cfar(s: &str) -> std::result::Result<CfarKind, String> {
     s.parse::<CfarKind>().map_err(|e| e.to_string())
 }
@@ -186,7 +195,7 @@ impl ProcessArgs {
         let mut s = PipelineSettings::default();
         let d = &mut s.detect;
         d.cpi_chirps = self.cpi;
-        d.cpi_hop = self.hop.unwrap_or((self.cpi / 2).max(1));
+        d.cpi_hop = self.hop;
         d.canceller = self.canceller;
         d.phase_align = self.phase_align;
         d.cfar.kind = self.cfar;

@@ -172,11 +172,22 @@ impl FromStr for Canceller {
 /// Streaming canceller over chirps of `cells` range cells.
 ///
 /// Keeps the last `order` input chirps. With `phase_align`, before each difference the
-/// common phase step between the current chirp and its predecessor,
-/// `phi = arg(sum_k cur[k] conj(prev[k]))` over all cells, is estimated and the history is
-/// rotated by it (older chirps by the sum of the steps since them), which removes
-/// chirp-to-chirp oscillator phase jitter common to all cells. The estimate assumes
-/// stationary clutter dominates the sum; a strong moving target biases it.
+/// common phase step between the current chirp and its predecessor is estimated and the
+/// history is rotated by it (older chirps by the sum of the steps since them), which
+/// removes chirp-to-chirp oscillator phase jitter common to all cells. The estimate uses
+/// the stationary cells only: `phi` = the argument of the weighted mean over cells of the
+/// unit phasors of `cur[k] conj(prev[k])`, over cells whose slow-time mean power `|mean_k|^2` holds at
+/// least 90% of their mean power (exponential averages over about 256 chirps), weighted by
+/// `|mean_k|^2` capped at 4x the median weight — so a mover or blade return, or a target
+/// passing through the strongest clutter cell, does not steer it.
+///
+/// The estimate carries the noise of the cells it is made from, and rotating a strong
+/// return by that noise leaks it through. So the step applied is shrunk towards zero by
+/// the Wiener gain `g = s_j / s_t` (clamped to 0..1): `s_t` is the running mean square of the
+/// step estimate and `s_j` the running mean of `phi_A * phi_B`, the product of estimates
+/// from two disjoint halves of the stationary cells, whose noises are independent — so
+/// `s_j` measures the common jitter alone. Without jitter `g` tends to 0 and the
+/// canceller is the plain one; with jitter well above the estimation noise, `g` tends to 1.
 #[derive(Debug, Clone)]
 pub struct CancellerState {
     kind: Canceller,
@@ -190,7 +201,21 @@ pub struct CancellerState {
     steps: Vec<f64>,
     filled: usize,
     last_phase: f64,
+    /// Exponential slow-time mean and mean power of each cell (stationarity weights).
+    mean: Vec<Complex32>,
+    power: Vec<f32>,
+    seen: usize,
+    /// Running mean square of the step estimate, and of the half-estimates' product.
+    step_power: f64,
+    step_cross: f64,
+    /// Work buffers of the step estimate (reused; no allocation once grown).
+    cell_steps: Vec<(f64, f64)>,
+    weights: Vec<f64>,
 }
+
+
+/// Averaging factor of the stationarity statistics (about 256 chirps).
+const STATIONARY_ALPHA: f32 = 1.0 / 256.0;
 
 impl CancellerState {
     /// A canceller of `kind` for chirps of `cells` (>= 1) range cells.
@@ -208,7 +233,53 @@ impl CancellerState {
             steps: vec![0.0; order],
             filled: 0,
             last_phase: 0.0,
+            mean: vec![Complex32::new(0.0, 0.0); cells],
+            power: vec![0.0; cells],
+            seen: 0,
+            step_power: 0.0,
+            step_cross: 0.0,
+            cell_steps: Vec::with_capacity(cells),
+            weights: Vec::with_capacity(cells),
         })
+    }
+
+    /// Per-cell phase steps `(arg(cur conj(prev)), weight)` of the stationary cells into
+    /// `cell_steps`, in cell order; weights are the cells' stationary powers, capped at 4x
+    /// their median so one very strong cell (through which a target may pass) cannot decide
+    /// alone.
+    fn steps_of_stationary(&mut self, chirp: &[Complex32]) {
+        self.cell_steps.clear();
+        for (k, (c, p)) in chirp.iter().zip(&self.history[0]).enumerate() {
+            let dc = self.mean[k].norm_sqr();
+            if dc <= 0.0 || dc < 0.9 * self.power[k] {
+                continue;
+            }
+            let v = c * p.conj();
+            if v.norm() > 0.0 {
+                self.cell_steps.push((v.arg() as f64, dc as f64));
+            }
+        }
+        if self.cell_steps.is_empty() {
+            return;
+        }
+        self.weights.clear();
+        self.weights.extend(self.cell_steps.iter().map(|s| s.1));
+        let mid = self.weights.len() / 2;
+        let (_, med, _) = self.weights.select_nth_unstable_by(mid, |a, b| a.total_cmp(b));
+        let cap = 4.0 * *med;
+        for s in self.cell_steps.iter_mut() {
+            s.1 = s.1.min(cap);
+        }
+    }
+
+    /// Updates the stationarity statistics with chirp `x`.
+    fn update_stationarity(&mut self, x: &[Complex32]) {
+        let a = if self.seen == 0 { 1.0 } else { STATIONARY_ALPHA };
+        for ((m, p), v) in self.mean.iter_mut().zip(self.power.iter_mut()).zip(x) {
+            *m += (v - *m) * a;
+            *p += (v.norm_sqr() - *p) * a;
+        }
+        self.seen += 1;
     }
 
     /// The canceller kind.
@@ -231,6 +302,7 @@ impl CancellerState {
     pub fn reset(&mut self) {
         self.filled = 0;
         self.last_phase = 0.0;
+        self.seen = 0;
     }
 
     /// Feeds one chirp (`cells` values). Returns `Ok(true)` and writes the cancelled chirp to
@@ -252,20 +324,37 @@ impl CancellerState {
         }
         // Phase step between the current chirp and x[m-1].
         let step = if self.phase_align && self.filled >= 1 {
-            let mut acc = rustfft::num_complex::Complex64::new(0.0, 0.0);
-            for (c, p) in chirp.iter().zip(&self.history[0]) {
-                let v = c * p.conj();
-                acc.re += v.re as f64;
-                acc.im += v.im as f64;
-            }
-            if acc.norm() > 0.0 {
-                acc.arg()
+            self.steps_of_stationary(chirp);
+            if self.cell_steps.len() >= 2 {
+                // Weighted means of unit phasors: all cells, and the two halves.
+                let mut sum = [(0.0f64, 0.0f64); 3];
+                for (i, &(a, w)) in self.cell_steps.iter().enumerate() {
+                    let (sn, cs) = a.sin_cos();
+                    for j in [2, i % 2] {
+                        sum[j].0 += w * cs;
+                        sum[j].1 += w * sn;
+                    }
+                }
+                let arg = |z: (f64, f64)| z.1.atan2(z.0);
+                let (phi, pa, pb) = (arg(sum[2]), arg(sum[0]), arg(sum[1]));
+                let al = STATIONARY_ALPHA as f64;
+                self.step_power += (phi * phi - self.step_power) * al;
+                self.step_cross += (pa * pb - self.step_cross) * al;
+                let g = if self.step_power > 0.0 {
+                    (self.step_cross / self.step_power).clamp(0.0, 1.0)
+                } else {
+                    0.0
+                };
+                g * phi
             } else {
                 0.0
             }
         } else {
             0.0
         };
+        if self.phase_align {
+            self.update_stationarity(chirp);
+        }
         self.last_phase = step;
         let ready = self.filled >= order;
         if ready {

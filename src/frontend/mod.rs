@@ -10,6 +10,7 @@
 pub mod cadence;
 pub mod canceller;
 pub mod cepstrum;
+pub mod clutter_map;
 pub mod doppler;
 pub mod normalise;
 pub mod range;
@@ -19,6 +20,7 @@ pub mod window;
 
 pub use cadence::{CadenceDiagram, CadencePlan};
 pub use canceller::{Canceller, CancellerState};
+pub use clutter_map::ClutterMap;
 pub use cepstrum::{CepstrumPlan, FrameKind};
 pub use doppler::{RangeDopplerMap, RangeDopplerPlan};
 pub use normalise::{NoiseFloor, NoiseFloorParams};

@@ -10,10 +10,19 @@ use crate::frontend::{Canceller, Window};
 /// Everything that shapes how a recording becomes tracks.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct DetectSettings {
-    /// Chirps per coherent processing interval (Doppler FFT length).
+    /// Chirps per coherent processing interval (Doppler FFT length); 0 = automatic: the
+    /// power of two nearest (in log) to `cpi_target_s / T`, at least 256.
     pub cpi_chirps: usize,
-    /// Chirps from one CPI to the next (CPI length minus overlap).
+    /// Chirps from one CPI to the next; 0 = half the CPI.
     pub cpi_hop: usize,
+    /// The CPI duration aimed at when `cpi_chirps` is automatic, s.
+    pub cpi_target_s: f64,
+    /// Time constant of the clutter map (stationary-return estimate), s.
+    pub clutter_map_s: f64,
+    /// Clutter-map path: share of a stationary return's power that may leak through phase
+    /// noise (white over Doppler); a hit must exceed this share of it (power ratio; 1e-3
+    /// allows ~0.03 rad rms of residual phase noise).
+    pub clutter_leak: f32,
     /// Clutter canceller before the Doppler FFT.
     pub canceller: Canceller,
     /// Rotate each chirp's history to its predecessor's common phase before cancelling.
@@ -43,10 +52,13 @@ pub struct DetectSettings {
 impl Default for DetectSettings {
     fn default() -> Self {
         DetectSettings {
-            cpi_chirps: 256,
-            cpi_hop: 128,
+            cpi_chirps: 0,
+            cpi_hop: 0,
+            cpi_target_s: 0.0256,
+            clutter_map_s: 0.2,
+            clutter_leak: 1e-3,
             canceller: Canceller::ThreePulse,
-            phase_align: false,
+            phase_align: true,
             range_window: Window::Hann,
             doppler_window: Window::Hann,
             notch_mps: 0.6,
@@ -74,23 +86,52 @@ impl Default for DetectSettings {
 }
 
 impl DetectSettings {
+    /// Chirps per CPI for chirp interval `t_s`.
+    pub fn cpi_for(&self, t_s: f64) -> usize {
+        if self.cpi_chirps > 0 {
+            return self.cpi_chirps;
+        }
+        let n = (self.cpi_target_s / t_s).max(1.0);
+        let p = 2f64.powf(n.log2().round()) as usize;
+        p.clamp(256, 4096)
+    }
+    /// Chirps from one CPI to the next for a CPI of `m` chirps.
+    pub fn hop_for(&self, m: usize) -> usize {
+        if self.cpi_hop > 0 {
+            self.cpi_hop.min(m)
+        } else {
+            (m / 2).max(1)
+        }
+    }
+
     /// Checks every value; errors name the value and the allowed range.
     pub fn check(&self) -> Result<()> {
         ensure(
-            self.cpi_chirps >= 16 && self.cpi_chirps <= 1 << 16,
+            self.cpi_chirps == 0 || (self.cpi_chirps >= 16 && self.cpi_chirps <= 1 << 16),
             || {
                 format!(
-                    "CPI length {} chirps: expected 16..=65536",
+                    "CPI length {} chirps: expected 16..=65536 (or 0 for automatic)",
                     self.cpi_chirps
                 )
             },
         )?;
-        ensure(self.cpi_hop >= 1 && self.cpi_hop <= self.cpi_chirps, || {
-            format!(
-                "CPI hop {} chirps: expected 1..=CPI length ({})",
-                self.cpi_hop, self.cpi_chirps
-            )
-        })?;
+        ensure(
+            self.cpi_hop == 0 || self.cpi_chirps == 0 || self.cpi_hop <= self.cpi_chirps,
+            || {
+                format!(
+                    "CPI hop {} chirps: expected 1..=CPI length ({})",
+                    self.cpi_hop, self.cpi_chirps
+                )
+            },
+        )?;
+        ensure(
+            self.cpi_target_s > 0.0 && self.cpi_target_s <= 1.0,
+            || format!("CPI target {} s: expected 0 < t <= 1", self.cpi_target_s),
+        )?;
+        ensure(
+            self.clutter_map_s > 0.0 && self.clutter_map_s.is_finite(),
+            || format!("clutter map time constant {} s: expected > 0", self.clutter_map_s),
+        )?;
         ensure(self.notch_mps.is_finite() && self.notch_mps >= 0.0, || {
             format!("notch {} m/s: expected a finite number >= 0", self.notch_mps)
         })?;

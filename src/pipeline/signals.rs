@@ -73,7 +73,7 @@ impl RangeGate {
 /// the recording, and capped at `max_chirps` around the middle.
 pub fn track_span(track: &Track, meta: &RecordingMeta, s: &DetectSettings, max_chirps: usize) -> (usize, usize) {
     let t = meta.params.chirp_interval_s;
-    let half = s.cpi_chirps as f64 / 2.0;
+    let half = s.cpi_for(meta.params.chirp_interval_s) as f64 / 2.0;
     let a = ((track.start_s / t) - half).max(0.0) as usize;
     let b = (((track.end_s / t) + half).ceil() as usize).min(meta.chirps);
     let (a, b) = (a.min(b), b);

@@ -1,7 +1,9 @@
 //! Pass one over a recording: range processing, clutter cancelling, range-Doppler maps over
-//! CPIs, range normalisation, CFAR on the cancelled map, the micro-Doppler energy detector
-//! for bodies in the canceller notch, clustering and tracking. Streams the recording block by
-//! block; memory holds one CPI of chirps (cancelled and raw), not the recording.
+//! CPIs, range normalisation, CFAR on the cancelled map, and for returns whose body lies in
+//! the canceller's notch two more detectors: CFAR over the notch bins of the clutter-map
+//! path (stationary returns subtracted, a notch ~1 Hz wide), and the micro-Doppler energy
+//! detector (blade spread outside the notch). Then clustering and tracking. Streams the
+//! recording block by block; memory holds one CPI of chirps per path, not the recording.
 
 use ndarray::Array2;
 use rustfft::num_complex::Complex32;
@@ -13,7 +15,8 @@ use crate::detect::{
 };
 use crate::error::{Error, Result};
 use crate::frontend::{
-    CancellerState, NoiseFloor, NoiseFloorParams, RangeDopplerMap, RangeDopplerPlan, RangePlan,
+    CancellerState, ClutterMap, NoiseFloor, NoiseFloorParams, RangeDopplerMap, RangeDopplerPlan,
+    RangePlan,
 };
 use crate::recording::{ChirpBlock, ChirpReader, RecordingMeta, Waveform};
 
@@ -31,8 +34,10 @@ pub struct TrackRun {
     pub cpi_s: f64,
     /// Detections from the CFAR path, summed over CPIs.
     pub cfar_detections: usize,
-    /// Detections from the micro-Doppler energy detector alone (body in the notch).
+    /// Detections from the notch paths alone (clutter map or micro-Doppler energy).
     pub notch_detections: usize,
+    /// Chirps per CPI used.
+    pub cpi_chirps: usize,
 }
 
 /// The front end for one radar: plans and buffers made once, reused for every chirp/CPI.
@@ -72,7 +77,8 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
     s.check()?;
     let p = &meta.params;
     let k = p.range_bins();
-    let m = s.cpi_chirps;
+    let m = s.cpi_for(p.chirp_interval_s);
+    let hop = s.hop_for(m);
     let order = s.canceller.order();
     if meta.chirps < m + order {
         return Err(Error::format(
@@ -88,8 +94,16 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
     let mut fe = FrontEnd::new(meta, s)?;
     let mut canc = CancellerState::new(s.canceller, k, s.phase_align)?;
     let mut rd = RangeDopplerPlan::new(m, s.doppler_window)?;
-    let mut rd_raw = RangeDopplerPlan::new(m, s.doppler_window)?;
-    let mut noise = NoiseFloor::new(NoiseFloorParams::new(s.noise_half_window, s.noise_smoothing))?;
+    let mut rd_slow = RangeDopplerPlan::new(m, s.doppler_window)?;
+    let noise_params = NoiseFloorParams::new(s.noise_half_window, s.noise_smoothing);
+    let mut noise = NoiseFloor::new(noise_params)?;
+    let mut noise_slow = NoiseFloor::new(noise_params)?;
+    let tau = ((s.clutter_map_s / p.chirp_interval_s).round() as usize).max(m);
+    // Not phase-aligned: the alignment estimate's own noise would modulate strong returns;
+    // what common phase noise leaks through is rejected by the leak rule below instead.
+    let mut cmap = ClutterMap::new(k, tau, false)?;
+    let window_energy: f32 = s.doppler_window.coefficients(m).iter().map(|w| w * w).sum();
+    let mut cfar_slow = CfarPlan::new(s.cfar)?;
     let mut cfar = CfarPlan::new(s.cfar)?;
     let mut md = MicroDopplerDetector::new(s.microdoppler)?;
     let mut clusterer = Clusterer::new(ClusterParams::new(1)?)?;
@@ -102,19 +116,23 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
         Waveform::RangeProfile => 0,
     };
     let allowed = Array2::from_shape_fn((k, m), |(r, d)| r >= skip && outside[d]);
+    let allowed_notch = Array2::from_shape_fn((k, m), |(r, d)| r >= skip && notch[d]);
 
     let zero = Complex32::new(0.0, 0.0);
     let mut ring_c = vec![zero; m * k];
-    let mut ring_r = vec![zero; m * k];
+    let mut ring_s = vec![zero; m * k];
     let mut cpi_c = vec![zero; m * k];
-    let mut cpi_r = vec![zero; m * k];
+    let mut cpi_s = vec![zero; m * k];
     let mut out = vec![zero; k];
+    let mut out_s = vec![zero; k];
     let mut map = RangeDopplerMap::zeros(k, m, prf);
-    let mut raw = RangeDopplerMap::zeros(k, m, prf);
+    let mut slow = RangeDopplerMap::zeros(k, m, prf);
     let mut norm = Array2::<f32>::zeros((k, m));
+    let mut norm_s = Array2::<f32>::zeros((k, m));
     let mut hits: Vec<CfarHit> = Vec::new();
     let mut md_hits: Vec<MicroDopplerHit> = Vec::new();
     let mut dets: Vec<Detection> = Vec::new();
+    let mut slow_dets: Vec<Detection> = Vec::new();
 
     let mut reader = ChirpReader::open(meta, channel)?;
     let mut block = ChirpBlock::default();
@@ -131,8 +149,10 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
         }
         for i in 0..got {
             let prof = fe.range_profile(&block, i)?;
-            ring_r[pos * k..(pos + 1) * k].copy_from_slice(prof);
-            if canc.push(prof, &mut out)? {
+            let ready = canc.push(prof, &mut out)?;
+            cmap.push(prof, &mut out_s);
+            ring_s[pos * k..(pos + 1) * k].copy_from_slice(&out_s);
+            if ready {
                 ring_c[pos * k..(pos + 1) * k].copy_from_slice(&out);
                 valid += 1;
             } else {
@@ -140,7 +160,7 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
             }
             pos = (pos + 1) % m;
             since += 1;
-            if valid < m || since < s.cpi_hop {
+            if valid < m || since < hop {
                 continue;
             }
             since = 0;
@@ -155,18 +175,48 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
                 norm.row_mut(r).fill(1.0);
             }
             cfar.detect(norm.view(), Some(allowed.view()), &mut hits)?;
+            if std::env::var_os("ROTORSIFT_DEBUG_HITS").is_some() {
+                for h in &hits {
+                    eprintln!("hit cpi {cpis} r {} d {} snr {:.1} noise {:.2}", h.range, h.doppler, h.snr_db, h.noise);
+                }
+            }
             clusterer.cluster(&hits, &range_of_cell, &vel_of_bin, &in_notch, &mut dets);
             n_cfar += dets.len();
+            let before = dets.len();
+            // Clutter-map path: bodies inside the notch.
+            unroll(&ring_s, pos, k, &mut cpi_s);
+            rd_slow.process_into(&cpi_s, prf, &mut slow)?;
+            noise_slow.update(&slow)?;
+            noise_slow.normalise_into(&slow, &mut norm_s)?;
+            for r in 0..skip {
+                norm_s.row_mut(r).fill(1.0);
+            }
+            cfar_slow.detect(norm_s.view(), Some(allowed_notch.view()), &mut hits)?;
+            // Leak rule (a clutter-map threshold): a strong stationary return leaks part of
+            // its power through any phase noise, spread white over the Doppler bins
+            // (|c|^2 sum w^2 per bin for a leak of 100%); a hit must exceed
+            // `clutter_leak` of that.
+            hits.retain(|h| {
+                slow.power[[h.range, h.doppler]]
+                    > s.clutter_leak * cmap.clutter_power(h.range) * window_energy
+            });
+            clusterer.cluster(&hits, &range_of_cell, &vel_of_bin, &in_notch, &mut slow_dets);
+            for d in slow_dets.drain(..) {
+                if !covered(&d, &dets, p.range_cell_m()) {
+                    dets.push(Detection { in_notch: true, ..d });
+                }
+            }
+            // Micro-Doppler energy: blade spread with the body in the notch.
             md_hits.clear();
             md.detect(norm.view(), &outside, &mut md_hits);
             md_hits.retain(|h| h.range >= skip);
-            let before = dets.len();
             if !md_hits.is_empty() {
-                unroll(&ring_r, pos, k, &mut cpi_r);
-                rd_raw.process_into(&cpi_r, prf, &mut raw)?;
-                add_notch_detections(&md_hits, &mut dets, p, &axis, &raw);
+                add_notch_detections(&md_hits, &mut dets, p, &axis, &norm_s);
             }
             n_notch += dets.len() - before;
+            if std::env::var_os("ROTORSIFT_DEBUG").is_some() {
+                eprintln!("cpi {cpis} t {t_s:.3} cfar {} md {:?} dets {:?}", hits.len(), md_hits.iter().map(|h| (h.range, h.ratio)).collect::<Vec<_>>(), dets.iter().map(|d| (d.range_m as i32, d.velocity_mps as f32, d.in_notch)).collect::<Vec<_>>());
+            }
             tracker.update(cpis, t_s, &dets)?;
             cpis += 1;
         }
@@ -177,6 +227,14 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
         cpi_s: m as f64 * p.chirp_interval_s,
         cfar_detections: n_cfar,
         notch_detections: n_notch,
+        cpi_chirps: m,
+    })
+}
+
+/// True when detection `d` lies within 1.5 cells of a detection of `dets`.
+fn covered(d: &Detection, dets: &[Detection], cell: f64) -> bool {
+    dets.iter().any(|e| {
+        d.range_max_m >= e.range_min_m - 1.5 * cell && d.range_min_m <= e.range_max_m + 1.5 * cell
     })
 }
 
@@ -215,19 +273,19 @@ fn notch_axis(notch: &[bool], m: usize, prf: f64, lambda: f64) -> NotchAxis {
 }
 
 /// Turns micro-Doppler hits away from every CFAR detection into detections with the body
-/// in the notch. Their velocity is read from the uncancelled map (the strongest notch bin
-/// of the cell).
+/// in the notch. Their velocity is read from the clutter-map path (the strongest notch bin
+/// of the cell, stationary returns removed).
 fn add_notch_detections(
     md_hits: &[MicroDopplerHit],
     dets: &mut Vec<Detection>,
     p: &crate::recording::RadarParams,
     axis: &NotchAxis,
-    raw: &RangeDopplerMap,
+    slow: &Array2<f32>,
 ) {
     let cell = p.range_cell_m();
     let covered = |r: f64, dets: &[Detection]| {
         dets.iter()
-            .any(|d| !d.in_notch && r >= d.range_min_m - 1.5 * cell && r <= d.range_max_m + 1.5 * cell)
+            .any(|d| r >= d.range_min_m - 1.5 * cell && r <= d.range_max_m + 1.5 * cell)
     };
     let mut i = 0;
     while i < md_hits.len() {
@@ -256,7 +314,7 @@ fn add_notch_detections(
         } else {
             best.range as f64
         };
-        let row = raw.power.row(best.range);
+        let row = slow.row(best.range);
         let velocity = axis
             .bins
             .iter()
