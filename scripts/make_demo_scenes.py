@@ -20,21 +20,21 @@ RADARS = {
                    sweep_duration_s=32e-6, transmit_power_w=0.1, tx_gain_dbi=20.0,
                    rx_gain_dbi=20.0, noise_figure_db=8.0, losses_db=2.0, datatype="ci16_le",
                    phase_jitter_rad=0.002),
-        duration=1.5, cover=(12.0, 88.0), runs=24, tip=(40.0, 62.0)),
+        duration=1.5, cover=(12.0, 88.0), runs=36, tip=(40.0, 62.0)),
     "k77": dict(
         title="77 GHz short-range FMCW sensor",
         table=dict(waveform="fmcw-beat", carrier_hz=77.0e9, samples_per_chirp=64,
                    chirp_interval_s=16e-6, sample_rate_hz=5.0e6, sweep_bandwidth_hz=250e6,
                    sweep_duration_s=12.8e-6, transmit_power_w=0.01, tx_gain_dbi=22.0,
                    rx_gain_dbi=22.0, noise_figure_db=10.0, losses_db=2.0, datatype="ci16_le"),
-        duration=1.5, cover=(6.0, 35.0), runs=16, tip=(40.0, 62.0)),
+        duration=1.5, cover=(6.0, 35.0), runs=20, tip=(40.0, 62.0)),
     "x94": dict(
         title="X-band range-profile surveillance radar",
         table=dict(waveform="range-profile", carrier_hz=9.4e9, samples_per_chirp=64,
                    chirp_interval_s=100e-6, range_cell_m=3.0, range_start_m=30.0,
                    transmit_power_w=2.0, tx_gain_dbi=28.0, rx_gain_dbi=28.0,
                    noise_figure_db=4.0, losses_db=3.0, datatype="ci16_le"),
-        duration=2.0, cover=(45.0, 210.0), runs=24, tip=(40.0, 78.0)),
+        duration=2.0, cover=(45.0, 210.0), runs=36, tip=(40.0, 78.0)),
 }
 
 ROTORS = [1, 2, 3, 4, 6, 8]
@@ -242,12 +242,20 @@ def main():
                 rotors = ROTORS[(i + (i // 6)) % 6]
                 blades = 3 if (i // 2) % 2 == 1 else 2
                 r = rng.uniform(lo + 0.15 * (hi - lo), hi - 0.15 * (hi - lo))
+                r_uav = r
                 objs.append(rotorcraft(rng, radar, "uav-1", rotors, blades, mkind, r, faint))
                 desc.append("%s %d-rotor %d-blade rotorcraft at %.0f m%s" % (
                     mkind, rotors, blades, r, " (faint)" if faint else ""))
             if kind in ("bird", "mixed"):
                 spec = BIRDS[(i * 3 + count) % len(BIRDS)]
                 r = rng.uniform(lo + 0.1 * (hi - lo), hi - 0.1 * (hi - lo))
+                if kind == "mixed":
+                    # Keep the bird well apart in range from the rotorcraft (the far end of
+                    # the coverage), so each label's range window holds one target.
+                    span = hi - lo
+                    near = r_uav
+                    r = (rng.uniform(hi - 0.2 * span, hi - 0.1 * span) if near < (lo + hi) / 2
+                         else rng.uniform(lo + 0.1 * span, lo + 0.2 * span))
                 bm = MOTIONS[(i + 1) % 4] if kind == "mixed" else mkind
                 objs.append(bird(rng, radar, "bird-1", spec, bm, r, faint))
                 desc.append("%s %s at %.0f m" % (bm, spec[0], r))

@@ -253,7 +253,9 @@ fn analyse_all(
 }
 
 /// Feature rows of every track, with the label of the annotation it matches.
-fn labelled_rows(analyses: &[pipeline::RecordingAnalysis]) -> Vec<report::features_csv::FeatureRow> {
+fn labelled_rows(
+    analyses: &[pipeline::RecordingAnalysis],
+) -> Vec<report::features_csv::FeatureRow> {
     let mut rows = Vec::new();
     for a in analyses {
         let spans: Vec<_> = a.tracks.iter().map(|t| t.span()).collect();
@@ -352,8 +354,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
             Ok(exit_code(failed))
         }
         Command::Simulate { scene, out, seed } => {
-            std::fs::create_dir_all(&out)
-                .with_context(|| format!("creating {}", out.display()))?;
+            std::fs::create_dir_all(&out).with_context(|| format!("creating {}", out.display()))?;
             let metas = rotorsift::simulate::simulate_scene_file(&scene, &out, seed)?;
             let mut text = String::new();
             for m in metas {

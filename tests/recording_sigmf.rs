@@ -307,7 +307,9 @@ fn written_recordings_read_back() {
             target_id: Some("b1".into()),
             truth: Some(serde_json::json!({"wingbeat_hz": 6.5})),
         };
-        let mpath = w.finish(std::slice::from_ref(&ann), &serde_json::Map::new()).unwrap();
+        let mpath = w
+            .finish(std::slice::from_ref(&ann), &serde_json::Map::new())
+            .unwrap();
         let meta = RecordingMeta::open(&mpath).unwrap();
         assert_eq!(meta.params, params);
         assert_eq!(meta.chirps, 5);

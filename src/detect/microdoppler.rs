@@ -224,9 +224,7 @@ mod tests {
         let notch: Vec<bool> = (0..128).map(|d| !(62..=66).contains(&d)).collect();
         let mut hits = Vec::new();
         for _ in 0..40 {
-            let map = Array2::from_shape_fn((1000, 128), |_| {
-                -(1.0f32 - rng.gen::<f32>()).ln()
-            });
+            let map = Array2::from_shape_fn((1000, 128), |_| -(1.0f32 - rng.gen::<f32>()).ln());
             det.detect(map.view(), &notch, &mut hits);
         }
         assert!((22..=63).contains(&hits.len()), "hits {}", hits.len());

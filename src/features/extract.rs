@@ -178,16 +178,18 @@ impl Extractor {
     }
 
     /// The feature vector (order of [`super::names::FEATURES`]) and rotor estimates.
-    /// `x` is the track's slow-time signal, `reference` the same range gate a few cells away
-    /// (the noise reference: the spectrogram's noise level is its median / ln 2).
+    /// `x` is the track's slow-time signal, `references` the same range gate a few cells
+    /// away (noise references: the spectrogram's noise level is the smallest of their
+    /// spectrograms' median / ln 2).
     pub fn extract(
         &mut self,
         x: &[Complex32],
-        reference: &[Complex32],
+        references: &[&[Complex32]],
         kin: &TrackKinematics,
     ) -> Result<(Vec<f64>, RotorEstimates)> {
         let mut v = vec![0.0f64; count()];
-        let set = |v: &mut Vec<f64>, f: F, x: f64| v[f as usize] = if x.is_finite() { x } else { 0.0 };
+        let set =
+            |v: &mut Vec<f64>, f: F, x: f64| v[f as usize] = if x.is_finite() { x } else { 0.0 };
         set(&mut v, F::BodySpeed, kin.body_velocity_mps.abs());
         set(&mut v, F::BodySpeedStd, kin.body_speed_std_mps);
         set(&mut v, F::RangeRate, kin.range_rate_mps);
@@ -202,12 +204,12 @@ impl Extractor {
             blade_length_m: None,
         };
         let max_len = (self.settings.max_track_s * self.prf) as usize;
-        let (x, reference) = if x.len() > max_len {
-            let a = (x.len() - max_len) / 2;
-            (&x[a..a + max_len], &reference[a.min(reference.len())..(a + max_len).min(reference.len())])
-        } else {
-            (x, reference)
+        let a = x.len().saturating_sub(max_len) / 2;
+        let x = &x[a..(a + max_len).min(x.len())];
+        let cut = |r: &[Complex32]| -> Vec<Complex32> {
+            r[a.min(r.len())..(a + max_len).min(r.len())].to_vec()
         };
+        let references: Vec<Vec<Complex32>> = references.iter().map(|r| cut(r)).collect();
         if x.len() < self.stft.params().nperseg * 4 {
             return Ok((v, none));
         }
@@ -232,11 +234,18 @@ impl Extractor {
         let (frames, nfft) = spec.dim();
         let dv = self.prf / nfft as f64 * self.lambda / 2.0;
         let vel = |d: usize| (d as f64 - (nfft / 2) as f64) * dv;
-        let zref = self.prepare(reference, 0.0);
-        let noise = match self.stft.spectrogram(&zref, false) {
-            Ok(r) if r.nrows() > 0 => noise_level(r.as_slice().unwrap_or(&[])),
-            _ => noise_level(spec.as_slice().unwrap_or(&[])),
-        };
+        let mut noise = f64::INFINITY;
+        for r in &references {
+            let zref = self.prepare(r, 0.0);
+            if let Ok(s) = self.stft.spectrogram(&zref, false) {
+                if s.nrows() > 0 {
+                    noise = noise.min(noise_level(s.as_slice().unwrap_or(&[])));
+                }
+            }
+        }
+        if !noise.is_finite() {
+            noise = noise_level(spec.as_slice().unwrap_or(&[]));
+        }
         let mut mean = vec![0.0f64; nfft];
         for row in spec.rows() {
             for (d, &p) in row.iter().enumerate() {
@@ -248,14 +257,16 @@ impl Extractor {
         }
         let excess: Vec<f64> = mean.iter().map(|m| (m - noise).max(0.0)).collect();
         let total: f64 = excess.iter().sum();
-        // Extent: the mean spectrum (3-bin smoothed) stands out of the noise by 5 standard
-        // errors of a mean of `frames` exponential values (noise / sqrt(F)), and by at
-        // least 1.5 dB (the noise reference is another cell).
-        let thr = noise * (1.0 + 5.0 / (frames as f64).sqrt()).max(10f64.powf(0.15));
+        // Extent: the mean spectrum (smoothed over 2w+1 bins) stands out of the noise by 5
+        // standard errors of a mean of F (2w+1) exponential values (noise / sqrt(F (2w+1))),
+        // and by at least 0.5 dB (the noise reference is another cell).
+        let w = (nfft / 64).max(1);
+        let thr =
+            noise * (1.0 + 5.0 / ((frames * (2 * w + 1)) as f64).sqrt()).max(10f64.powf(0.05));
         let smooth: Vec<f64> = (0..nfft)
             .map(|d| {
-                let a = d.saturating_sub(1);
-                let b = (d + 1).min(nfft - 1);
+                let a = d.saturating_sub(w);
+                let b = (d + w).min(nfft - 1);
                 mean[a..=b].iter().sum::<f64>() / (b - a + 1) as f64
             })
             .collect();
@@ -266,7 +277,8 @@ impl Extractor {
         set(&mut v, F::MdExtent, extent);
         let body_hw = (0.5f64).max(2.0 * dv);
         if total > 0.0 {
-            let mut by_offset: Vec<(f64, f64)> = (0..nfft).map(|d| (vel(d).abs(), excess[d])).collect();
+            let mut by_offset: Vec<(f64, f64)> =
+                (0..nfft).map(|d| (vel(d).abs(), excess[d])).collect();
             by_offset.sort_by(|a, b| a.0.total_cmp(&b.0));
             let mut acc = 0.0;
             let mut e95 = 0.0;
@@ -278,7 +290,10 @@ impl Extractor {
                 }
             }
             set(&mut v, F::MdExtent95, e95);
-            let outside: f64 = (0..nfft).filter(|&d| vel(d).abs() > body_hw).map(|d| excess[d]).sum();
+            let outside: f64 = (0..nfft)
+                .filter(|&d| vel(d).abs() > body_hw)
+                .map(|d| excess[d])
+                .sum();
             set(&mut v, F::OutsideShare, outside / total);
             let h: f64 = excess
                 .iter()
@@ -289,8 +304,14 @@ impl Extractor {
                 })
                 .sum();
             set(&mut v, F::Entropy, h / (nfft as f64).ln());
-            let pos: f64 = (0..nfft).filter(|&d| vel(d) > body_hw).map(|d| excess[d]).sum();
-            let neg: f64 = (0..nfft).filter(|&d| vel(d) < -body_hw).map(|d| excess[d]).sum();
+            let pos: f64 = (0..nfft)
+                .filter(|&d| vel(d) > body_hw)
+                .map(|d| excess[d])
+                .sum();
+            let neg: f64 = (0..nfft)
+                .filter(|&d| vel(d) < -body_hw)
+                .map(|d| excess[d])
+                .sum();
             if pos + neg > 0.0 {
                 set(&mut v, F::Symmetry, (pos - neg) / (pos + neg));
             }
@@ -309,7 +330,8 @@ impl Extractor {
         let vmax = self.lambda / 4.0 * self.prf;
         let tip = extent.min(vmax);
         set(&mut v, F::TipSpeed, tip);
-        let rotor_seen = flash_db >= self.settings.rotor_min_strength_db && flash_hz > 0.0 && tip > 2.0;
+        let rotor_seen =
+            flash_db >= self.settings.rotor_min_strength_db && flash_hz > 0.0 && tip > 2.0;
         let blade_len = if rotor_seen {
             tip / (2.0 * std::f64::consts::PI * flash_hz / 2.0)
         } else {
@@ -338,7 +360,10 @@ impl Extractor {
         let len = (n * 2).next_power_of_two();
         let fft = self.planner.plan_fft_forward(len);
         let m = x.iter().sum::<f64>() / n as f64;
-        let mut buf: Vec<Complex32> = x.iter().map(|&a| Complex32::new((a - m) as f32, 0.0)).collect();
+        let mut buf: Vec<Complex32> = x
+            .iter()
+            .map(|&a| Complex32::new((a - m) as f32, 0.0))
+            .collect();
         buf.resize(len, Complex32::new(0.0, 0.0));
         fft.process(&mut buf);
         let df = rate / len as f64;
@@ -366,8 +391,13 @@ impl Extractor {
         let mut c = vec![0.0f32; nfft];
         let mut buf = vec![Complex32::new(0.0, 0.0); nfft];
         let mut scratch = vec![Complex32::new(0.0, 0.0); self.cepstrum.scratch_len()];
-        self.cepstrum
-            .of_frame_with_scratch(&frame, FrameKind::Power, &mut c, &mut buf, &mut scratch)?;
+        self.cepstrum.of_frame_with_scratch(
+            &frame,
+            FrameKind::Power,
+            &mut c,
+            &mut buf,
+            &mut scratch,
+        )?;
         let c: Vec<f64> = c.iter().map(|&x| x as f64).collect();
         for (i, f) in [F::Cep1, F::Cep2, F::Cep3, F::Cep4].iter().enumerate() {
             v[*f as usize] = c[i + 1];
@@ -376,7 +406,9 @@ impl Extractor {
         let qmin = 4usize;
         let qmax = ((self.prf / 20.0) as usize).min(nfft / 2);
         if qmax > qmin + 4 {
-            let band: Vec<(f64, f64)> = (qmin..qmax).map(|q| (self.prf / q as f64, c[q].abs())).collect();
+            let band: Vec<(f64, f64)> = (qmin..qmax)
+                .map(|q| (self.prf / q as f64, c[q].abs()))
+                .collect();
             let med = median(&band.iter().map(|b| b.1).collect::<Vec<_>>()).max(1e-30);
             if let Some((hz, val)) = band.iter().cloned().max_by(|a, b| a.1.total_cmp(&b.1)) {
                 v[F::CepPeakHz as usize] = hz;
@@ -388,14 +420,25 @@ impl Extractor {
 
     /// Cadence-velocity diagram of the spectrogram magnitude over the Doppler rows within
     /// the micro-Doppler extent (at least the body line's neighbours), rows not normalised.
-    fn cadence(&mut self, spec: &ndarray::Array2<f32>, extent_rows: usize, v: &mut [f64]) -> Result<()> {
+    fn cadence(
+        &mut self,
+        spec: &ndarray::Array2<f32>,
+        extent_rows: usize,
+        v: &mut [f64],
+    ) -> Result<()> {
         let frame_rate = self.prf / self.stft.params().hop() as f64;
         let (frames, nfft) = spec.dim();
         if frames < 8 {
             return Ok(());
         }
         let mag = spec.mapv(f32::sqrt);
-        let mut plan = CadencePlan::new(frames, frames.next_power_of_two(), Window::Hann, frame_rate, false)?;
+        let mut plan = CadencePlan::new(
+            frames,
+            frames.next_power_of_two(),
+            Window::Hann,
+            frame_rate,
+            false,
+        )?;
         let cvd = plan.process(&mag)?;
         let half = extent_rows.max(2);
         let rows = (nfft / 2).saturating_sub(half)..(nfft / 2 + half + 1);
@@ -406,7 +449,11 @@ impl Extractor {
             .zip(&summed)
             .map(|(&f, &p)| (f, p as f64))
             .collect();
-        let low: Vec<(f64, f64)> = cvd.iter().cloned().filter(|(f, _)| *f >= 0.5 && *f <= 30.0).collect();
+        let low: Vec<(f64, f64)> = cvd
+            .iter()
+            .cloned()
+            .filter(|(f, _)| *f >= 0.5 && *f <= 30.0)
+            .collect();
         let high: Vec<(f64, f64)> = cvd.iter().cloned().filter(|(f, _)| *f > 30.0).collect();
         let (a, b) = peak_over_median(&low);
         v[F::CadenceLowHz as usize] = a;
@@ -433,11 +480,17 @@ impl Extractor {
             return (0.0, 0.0);
         }
         let m = p.iter().sum::<f64>() / p.len() as f64;
-        let mut buf: Vec<Complex32> = p.iter().map(|&a| Complex32::new((a - m) as f32, 0.0)).collect();
+        let mut buf: Vec<Complex32> = p
+            .iter()
+            .map(|&a| Complex32::new((a - m) as f32, 0.0))
+            .collect();
         buf.resize(self.flash_len, Complex32::new(0.0, 0.0));
         self.flash_fft.process(&mut buf);
         let df = self.flash_rate / self.flash_len as f64;
-        let spec: Vec<f64> = buf[..self.flash_len / 2].iter().map(|c| c.norm_sqr() as f64).collect();
+        let spec: Vec<f64> = buf[..self.flash_len / 2]
+            .iter()
+            .map(|c| c.norm_sqr() as f64)
+            .collect();
         let lo = (self.settings.flash_min_hz / df).ceil() as usize;
         let hi = ((self.settings.flash_max_hz.min(self.flash_rate / 2.0)) / df) as usize;
         if hi <= lo + 4 {
@@ -469,7 +522,10 @@ impl Extractor {
         };
         let hs: Vec<(f64, f64)> = (lo..=hi)
             .map(|i| {
-                let s: f64 = (1..=4).filter(|k| i * k < white.len()).map(|k| at(i * k)).sum();
+                let s: f64 = (1..=4)
+                    .filter(|k| i * k < white.len())
+                    .map(|k| at(i * k))
+                    .sum();
                 (i as f64 * df, s)
             })
             .collect();
@@ -482,7 +538,10 @@ impl Extractor {
             if i < lo {
                 return 0.0;
             }
-            (1..=4).filter(|k| i * k < white.len()).map(|k| at(i * k)).sum::<f64>()
+            (1..=4)
+                .filter(|k| i * k < white.len())
+                .map(|k| at(i * k))
+                .sum::<f64>()
         };
         let peak = hs_at(f_best);
         let line = |f: f64| at((f / df).round() as usize);

@@ -213,7 +213,6 @@ pub struct CancellerState {
     weights: Vec<f64>,
 }
 
-
 /// Averaging factor of the stationarity statistics (about 256 chirps).
 const STATIONARY_ALPHA: f32 = 1.0 / 256.0;
 
@@ -265,7 +264,9 @@ impl CancellerState {
         self.weights.clear();
         self.weights.extend(self.cell_steps.iter().map(|s| s.1));
         let mid = self.weights.len() / 2;
-        let (_, med, _) = self.weights.select_nth_unstable_by(mid, |a, b| a.total_cmp(b));
+        let (_, med, _) = self
+            .weights
+            .select_nth_unstable_by(mid, |a, b| a.total_cmp(b));
         let cap = 4.0 * *med;
         for s in self.cell_steps.iter_mut() {
             s.1 = s.1.min(cap);
@@ -274,7 +275,11 @@ impl CancellerState {
 
     /// Updates the stationarity statistics with chirp `x`.
     fn update_stationarity(&mut self, x: &[Complex32]) {
-        let a = if self.seen == 0 { 1.0 } else { STATIONARY_ALPHA };
+        let a = if self.seen == 0 {
+            1.0
+        } else {
+            STATIONARY_ALPHA
+        };
         for ((m, p), v) in self.mean.iter_mut().zip(self.power.iter_mut()).zip(x) {
             *m += (v - *m) * a;
             *p += (v.norm_sqr() - *p) * a;

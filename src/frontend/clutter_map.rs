@@ -150,7 +150,12 @@ mod tests {
         }
         let k = (n / 2) as f64;
         assert!(ep / k > 0.2, "unaligned leak {}", ep / k);
-        assert!(ea / k < 0.01 * ep / k, "aligned {} plain {}", ea / k, ep / k);
+        assert!(
+            ea / k < 0.01 * ep / k,
+            "aligned {} plain {}",
+            ea / k,
+            ep / k
+        );
         assert!((mover / k - 0.09).abs() < 0.01, "mover {}", mover / k);
     }
 }

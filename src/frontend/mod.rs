@@ -20,8 +20,8 @@ pub mod window;
 
 pub use cadence::{CadenceDiagram, CadencePlan};
 pub use canceller::{Canceller, CancellerState};
-pub use clutter_map::ClutterMap;
 pub use cepstrum::{CepstrumPlan, FrameKind};
+pub use clutter_map::ClutterMap;
 pub use doppler::{RangeDopplerMap, RangeDopplerPlan};
 pub use normalise::{NoiseFloor, NoiseFloorParams};
 pub use range::RangePlan;

@@ -145,8 +145,15 @@ pub fn train(
         "forest": &params,
         "fitted_on": "all labelled recordings (held-out scores from a forest fitted without the held-out recordings)",
     });
-    let settings_json = serde_json::to_value(settings).map_err(|e| Error::Invalid(e.to_string()))?;
-    let model = ModelFile::new(forest, data.class_names.clone(), data.feature_names.clone(), settings_json, training)?;
+    let settings_json =
+        serde_json::to_value(settings).map_err(|e| Error::Invalid(e.to_string()))?;
+    let model = ModelFile::new(
+        forest,
+        data.class_names.clone(),
+        data.feature_names.clone(),
+        settings_json,
+        training,
+    )?;
     Ok((model, report))
 }
 
@@ -167,7 +174,12 @@ impl Classifier {
     pub fn new(model: ModelFile, name: String) -> Result<Self> {
         let origin = std::path::PathBuf::from(&name);
         let settings: PipelineSettings = serde_json::from_value(model.feature_settings.clone())
-            .map_err(|e| Error::format(&origin, format!("model's feature settings do not fit this build: {e}")))?;
+            .map_err(|e| {
+                Error::format(
+                    &origin,
+                    format!("model's feature settings do not fit this build: {e}"),
+                )
+            })?;
         model
             .check_compatible(&names::names(), &model.feature_settings)
             .map_err(|e| Error::format(&origin, e.to_string()))?;
@@ -231,7 +243,11 @@ pub struct Evaluation {
 
 /// Scores labelled recordings: each annotation is a target, detected when a track matches
 /// it, predicted as the duration-weighted mean of its tracks' probabilities.
-pub fn evaluate(analyses: &[RecordingAnalysis], clf: &Classifier, min_confidence: f64) -> Result<Evaluation> {
+pub fn evaluate(
+    analyses: &[RecordingAnalysis],
+    clf: &Classifier,
+    min_confidence: f64,
+) -> Result<Evaluation> {
     let model_classes = &clf.model.class_names;
     let mut classes: Vec<String> = model_classes.clone();
     for a in analyses {
@@ -259,7 +275,8 @@ pub fn evaluate(analyses: &[RecordingAnalysis], clf: &Classifier, min_confidence
     for a in analyses {
         let spans: Vec<_> = a.tracks.iter().map(|t| t.span()).collect();
         let m = match_tracks(&spans, &a.meta.annotations, &a.meta.params);
-        let mut per_ann: Vec<(f64, Vec<f64>)> = vec![(0.0, vec![0.0; model_classes.len()]); a.meta.annotations.len()];
+        let mut per_ann: Vec<(f64, Vec<f64>)> =
+            vec![(0.0, vec![0.0; model_classes.len()]); a.meta.annotations.len()];
         for (t, mi) in a.tracks.iter().zip(&m) {
             let Some(i) = *mi else {
                 unmatched += 1;
@@ -273,7 +290,11 @@ pub fn evaluate(analyses: &[RecordingAnalysis], clf: &Classifier, min_confidence
             }
             let pe = expand(&p);
             let best = crate::model::forest::argmax(&p);
-            let label = if p[best] < min_confidence { UNKNOWN } else { model_classes[best].as_str() };
+            let label = if p[best] < min_confidence {
+                UNKNOWN
+            } else {
+                model_classes[best].as_str()
+            };
             k_true.push(idx(&a.meta.annotations[i].label));
             k_pred.push(idx(label));
             k_prob.push(pe);
@@ -286,7 +307,11 @@ pub fn evaluate(analyses: &[RecordingAnalysis], clf: &Classifier, min_confidence
             detected += 1;
             let p: Vec<f64> = acc.iter().map(|x| x / w).collect();
             let best = crate::model::forest::argmax(&p);
-            let label = if p[best] < min_confidence { UNKNOWN } else { model_classes[best].as_str() };
+            let label = if p[best] < min_confidence {
+                UNKNOWN
+            } else {
+                model_classes[best].as_str()
+            };
             t_true.push(idx(&ann.label));
             t_pred.push(idx(label));
             t_prob.push(expand(&p));

@@ -33,7 +33,11 @@ pub fn matches(track: &TrackSpan, ann: &Annotation, p: &RadarParams) -> bool {
 
 /// For each track, the annotation it matches (the one with the largest time overlap when
 /// several do), or `None`.
-pub fn match_tracks(tracks: &[TrackSpan], anns: &[Annotation], p: &RadarParams) -> Vec<Option<usize>> {
+pub fn match_tracks(
+    tracks: &[TrackSpan],
+    anns: &[Annotation],
+    p: &RadarParams,
+) -> Vec<Option<usize>> {
     tracks
         .iter()
         .map(|t| {
@@ -84,7 +88,11 @@ mod tests {
         // INTERFACE.md §1 worked by hand: annotation 1.0-2.0 s, 50-60 m, cell 2 m.
         let p = params();
         let a = ann(1000, 1000, 50.0, 60.0);
-        let t = |s, e, r| TrackSpan { start_s: s, end_s: e, median_range_m: r };
+        let t = |s, e, r| TrackSpan {
+            start_s: s,
+            end_s: e,
+            median_range_m: r,
+        };
         assert!(matches(&t(1.5, 2.5, 55.0), &a, &p)); // exactly half inside
         assert!(!matches(&t(1.6, 2.6, 55.0), &a, &p)); // 40% inside
         assert!(matches(&t(1.2, 1.8, 48.0), &a, &p)); // one cell below the window

@@ -127,7 +127,11 @@ pub fn body_velocity(t: &[f64], r: &[f64], v: &[f64]) -> f64 {
     }
     let rr = slope(t, r);
     let tol = (0.2 * rr.abs()).max(1.0);
-    let near: Vec<f64> = v.iter().cloned().filter(|x| (x - rr).abs() <= tol).collect();
+    let near: Vec<f64> = v
+        .iter()
+        .cloned()
+        .filter(|x| (x - rr).abs() <= tol)
+        .collect();
     if near.len() * 10 >= v.len() * 3 {
         median(&near)
     } else {
@@ -139,7 +143,11 @@ pub fn body_velocity(t: &[f64], r: &[f64], v: &[f64]) -> f64 {
 pub fn kinematics(track: &Track) -> TrackKinematics {
     let t: Vec<f64> = track.points.iter().map(|p| p.t_s).collect();
     let r: Vec<f64> = track.points.iter().map(|p| p.detection.range_m).collect();
-    let v: Vec<f64> = track.points.iter().map(|p| p.detection.velocity_mps).collect();
+    let v: Vec<f64> = track
+        .points
+        .iter()
+        .map(|p| p.detection.velocity_mps)
+        .collect();
     let snr: Vec<f64> = track.points.iter().map(|p| p.detection.snr_db).collect();
     let notch = track.points.iter().filter(|p| p.detection.in_notch).count();
     TrackKinematics {
@@ -173,7 +181,11 @@ pub fn analyse(
         Vec::new()
     };
     let mut extractor = if with_features {
-        Some(Extractor::new(&settings.features, p.prf_hz(), p.wavelength_m())?)
+        Some(Extractor::new(
+            &settings.features,
+            p.prf_hz(),
+            p.wavelength_m(),
+        )?)
     } else {
         None
     };
@@ -181,7 +193,9 @@ pub fn analyse(
     for (i, track) in run.tracks.into_iter().enumerate() {
         let kin = kinematics(&track);
         let (features, rotor) = match (&mut extractor, signals.get(i)) {
-            (Some(ex), Some(sig)) => ex.extract(&sig.samples, &sig.reference, &kin)?,
+            (Some(ex), Some(sig)) => {
+                ex.extract(&sig.samples, &[&sig.reference, &sig.reference2], &kin)?
+            }
             _ => (
                 Vec::new(),
                 RotorEstimates {

@@ -124,16 +124,23 @@ impl DetectSettings {
                 )
             },
         )?;
-        ensure(
-            self.cpi_target_s > 0.0 && self.cpi_target_s <= 1.0,
-            || format!("CPI target {} s: expected 0 < t <= 1", self.cpi_target_s),
-        )?;
+        ensure(self.cpi_target_s > 0.0 && self.cpi_target_s <= 1.0, || {
+            format!("CPI target {} s: expected 0 < t <= 1", self.cpi_target_s)
+        })?;
         ensure(
             self.clutter_map_s > 0.0 && self.clutter_map_s.is_finite(),
-            || format!("clutter map time constant {} s: expected > 0", self.clutter_map_s),
+            || {
+                format!(
+                    "clutter map time constant {} s: expected > 0",
+                    self.clutter_map_s
+                )
+            },
         )?;
         ensure(self.notch_mps.is_finite() && self.notch_mps >= 0.0, || {
-            format!("notch {} m/s: expected a finite number >= 0", self.notch_mps)
+            format!(
+                "notch {} m/s: expected a finite number >= 0",
+                self.notch_mps
+            )
         })?;
         ensure(
             self.noise_smoothing > 0.0 && self.noise_smoothing <= 1.0,

@@ -14,8 +14,9 @@ use crate::detect::Track;
 use crate::error::Result;
 use crate::recording::{ChirpBlock, ChirpReader, RecordingMeta, Waveform};
 
-/// Cells between a track and its noise reference.
-const REFERENCE_OFFSET_CELLS: f64 = 6.0;
+/// Cells between a track and its two noise-reference candidates (one each side, folded
+/// back into the profile at the edges).
+const REFERENCE_OFFSET_CELLS: f64 = 8.0;
 
 /// The slow-time signal of one track.
 #[derive(Debug, Clone)]
@@ -24,9 +25,10 @@ pub struct TrackSignal {
     pub first_chirp: usize,
     /// One complex sample a chirp: the range-gated value at the track's range.
     pub samples: Vec<Complex32>,
-    /// The same gate `REFERENCE_OFFSET_CELLS` away (towards the middle of the profile):
-    /// a noise reference with the same scaling.
+    /// The same gate `REFERENCE_OFFSET_CELLS` away on either side: noise-reference
+    /// candidates with the same scaling (the feature stage takes the quieter).
     pub reference: Vec<Complex32>,
+    pub reference2: Vec<Complex32>,
 }
 
 /// Evaluates one chirp at a fractional range bin.
@@ -71,7 +73,12 @@ impl RangeGate {
 
 /// Chirp span of a track: its CPIs' centres widened by half a CPI on each side, clipped to
 /// the recording, and capped at `max_chirps` around the middle.
-pub fn track_span(track: &Track, meta: &RecordingMeta, s: &DetectSettings, max_chirps: usize) -> (usize, usize) {
+pub fn track_span(
+    track: &Track,
+    meta: &RecordingMeta,
+    s: &DetectSettings,
+    max_chirps: usize,
+) -> (usize, usize) {
     let t = meta.params.chirp_interval_s;
     let half = s.cpi_for(meta.params.chirp_interval_s) as f64 / 2.0;
     let a = ((track.start_s / t) - half).max(0.0) as usize;
@@ -121,6 +128,7 @@ pub fn track_signals(
             first_chirp: a,
             samples: Vec::with_capacity(b - a),
             reference: Vec::with_capacity(b - a),
+            reference2: Vec::with_capacity(b - a),
         })
         .collect();
     if tracks.is_empty() {
@@ -129,7 +137,7 @@ pub fn track_signals(
     let first = spans.iter().map(|s| s.0).min().unwrap_or(0);
     let last = spans.iter().map(|s| s.1).max().unwrap_or(0);
     let gate = RangeGate::new(meta, s);
-    let mid = meta.params.range_bins() as f64 / 2.0;
+    let top_bin = (meta.params.range_bins() - 1) as f64;
     let mut reader = ChirpReader::open(meta, channel)?;
     reader.seek_chirp(first)?;
     let mut block = ChirpBlock::default();
@@ -149,13 +157,22 @@ pub fn track_signals(
                     continue;
                 }
                 let kappa = bin_at(&tracks[j], meta, chirp as f64 * t);
-                let kref = if kappa < mid {
-                    kappa + REFERENCE_OFFSET_CELLS
-                } else {
-                    kappa - REFERENCE_OFFSET_CELLS
+                let fold = |k: f64| {
+                    if k < 0.0 {
+                        k + 2.0 * REFERENCE_OFFSET_CELLS
+                    } else if k > top_bin {
+                        k - 2.0 * REFERENCE_OFFSET_CELLS
+                    } else {
+                        k
+                    }
                 };
+                let (k1, k2) = (
+                    fold(kappa + REFERENCE_OFFSET_CELLS),
+                    fold(kappa - REFERENCE_OFFSET_CELLS),
+                );
                 out[j].samples.push(gate.at(x, kappa));
-                out[j].reference.push(gate.at(x, kref));
+                out[j].reference.push(gate.at(x, k1));
+                out[j].reference2.push(gate.at(x, k2));
             }
         }
         m += got;

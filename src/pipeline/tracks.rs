@@ -10,8 +10,8 @@ use rustfft::num_complex::Complex32;
 
 use super::settings::DetectSettings;
 use crate::detect::{
-    CfarHit, CfarPlan, ClusterParams, Clusterer, Detection, MicroDopplerDetector,
-    MicroDopplerHit, Track, Tracker,
+    CfarHit, CfarPlan, ClusterParams, Clusterer, Detection, MicroDopplerDetector, MicroDopplerHit,
+    Track, Tracker,
 };
 use crate::error::{Error, Result};
 use crate::frontend::{
@@ -175,11 +175,6 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
                 norm.row_mut(r).fill(1.0);
             }
             cfar.detect(norm.view(), Some(allowed.view()), &mut hits)?;
-            if std::env::var_os("ROTORSIFT_DEBUG_HITS").is_some() {
-                for h in &hits {
-                    eprintln!("hit cpi {cpis} r {} d {} snr {:.1} noise {:.2}", h.range, h.doppler, h.snr_db, h.noise);
-                }
-            }
             clusterer.cluster(&hits, &range_of_cell, &vel_of_bin, &in_notch, &mut dets);
             n_cfar += dets.len();
             let before = dets.len();
@@ -200,10 +195,19 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
                 slow.power[[h.range, h.doppler]]
                     > s.clutter_leak * cmap.clutter_power(h.range) * window_energy
             });
-            clusterer.cluster(&hits, &range_of_cell, &vel_of_bin, &in_notch, &mut slow_dets);
+            clusterer.cluster(
+                &hits,
+                &range_of_cell,
+                &vel_of_bin,
+                &in_notch,
+                &mut slow_dets,
+            );
             for d in slow_dets.drain(..) {
                 if !covered(&d, &dets, p.range_cell_m()) {
-                    dets.push(Detection { in_notch: true, ..d });
+                    dets.push(Detection {
+                        in_notch: true,
+                        ..d
+                    });
                 }
             }
             // Micro-Doppler energy: blade spread with the body in the notch.
@@ -214,9 +218,6 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
                 add_notch_detections(&md_hits, &mut dets, p, &axis, &norm_s);
             }
             n_notch += dets.len() - before;
-            if std::env::var_os("ROTORSIFT_DEBUG").is_some() {
-                eprintln!("cpi {cpis} t {t_s:.3} cfar {} md {:?} dets {:?}", hits.len(), md_hits.iter().map(|h| (h.range, h.ratio)).collect::<Vec<_>>(), dets.iter().map(|d| (d.range_m as i32, d.velocity_mps as f32, d.in_notch)).collect::<Vec<_>>());
-            }
             tracker.update(cpis, t_s, &dets)?;
             cpis += 1;
         }
@@ -267,7 +268,12 @@ fn notch_axis(notch: &[bool], m: usize, prf: f64, lambda: f64) -> NotchAxis {
     NotchAxis {
         bins: (0..m)
             .filter(|&d| notch[d])
-            .map(|d| (d, (d as f64 - (m / 2) as f64) * prf / m as f64 * lambda / 2.0))
+            .map(|d| {
+                (
+                    d,
+                    (d as f64 - (m / 2) as f64) * prf / m as f64 * lambda / 2.0,
+                )
+            })
             .collect(),
     }
 }

@@ -4,8 +4,8 @@
 pub mod features_csv;
 pub mod info;
 pub mod scores;
-pub mod tracks;
 pub mod table;
+pub mod tracks;
 
 pub use table::Table;
 

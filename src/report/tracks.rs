@@ -53,15 +53,24 @@ pub struct TrackReport {
 }
 
 fn opt(x: Option<f64>, prec: usize) -> String {
-    x.map(|v| format!("{v:.prec$}")).unwrap_or_else(|| "-".into())
+    x.map(|v| format!("{v:.prec$}"))
+        .unwrap_or_else(|| "-".into())
 }
 
 /// The table of `detect`/`classify`: one row per track.
 pub fn to_table(report: &TrackReport) -> Table {
     let classify = report.model.is_some();
     let mut head = vec![
-        "recording", "track", "start_s", "end_s", "range_m", "vel_mps", "snr_dB", "hover",
-        "flash_Hz", "tip_mps",
+        "recording",
+        "track",
+        "start_s",
+        "end_s",
+        "range_m",
+        "vel_mps",
+        "snr_dB",
+        "hover",
+        "flash_Hz",
+        "tip_mps",
     ];
     if classify {
         head.extend(["label", "conf"]);

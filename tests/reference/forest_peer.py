@@ -8,8 +8,8 @@ FEATURES.csv (as written by `rotorsift features`): one row per track, with colum
   recording  - the group (recording id); whole recordings are held out
   label      - the class; rows with an empty label are left out
   every other column whose values all parse as numbers is a feature; columns with any
-  non-numeric value (identifiers such as a path or track id) are ignored. A column of
-  numbers that is an identifier (e.g. a numeric track id) should be dropped beforehand.
+  non-numeric value (identifiers such as a path) are ignored, and so are the identifier
+  columns `rotorsift features` writes with the prefix `id_` (track id, times, range).
 
 The split is sklearn GroupShuffleSplit(n_splits=1, test_size=0.3, random_state=7) over
 the recordings. Prints JSON: library versions, the features used, the test recordings
@@ -50,7 +50,7 @@ def main(argv):
         except ValueError:
             return None
 
-    features = [c for c in columns if c not in ("recording", "label")
+    features = [c for c in columns if c not in ("recording", "label") and not c.startswith("id_")
                 and all(number(r[c]) is not None for r in rows)]
     x = np.array([[float(r[c]) for c in features] for r in rows], dtype=float)
     y = np.array([r["label"] for r in rows])
