@@ -112,6 +112,9 @@ pub struct Extractor {
     decim: usize,
 }
 
+/// How far below the blade level the spectrum's edge is read, dB (see `extract`).
+const REL_DB: f64 = 15.0;
+
 /// Power-of-two sample count nearest to `seconds * rate`, clamped to [lo, hi].
 fn pow2_len(seconds: f64, rate: f64, lo: usize, hi: usize) -> usize {
     let n = (seconds * rate).max(1.0);
@@ -257,23 +260,54 @@ impl Extractor {
         }
         let excess: Vec<f64> = mean.iter().map(|m| (m - noise).max(0.0)).collect();
         let total: f64 = excess.iter().sum();
-        // Extent: the mean spectrum (smoothed over 2w+1 bins) stands out of the noise by 5
-        // standard errors of a mean of F (2w+1) exponential values (noise / sqrt(F (2w+1))),
-        // and by at least 0.5 dB (the noise reference is another cell).
-        let w = (nfft / 64).max(1);
-        let thr =
-            noise * (1.0 + 5.0 / ((frames * (2 * w + 1)) as f64).sqrt()).max(10f64.powf(0.05));
-        let smooth: Vec<f64> = (0..nfft)
-            .map(|d| {
-                let a = d.saturating_sub(w);
-                let b = (d + w).min(nfft - 1);
-                mean[a..=b].iter().sum::<f64>() / (b - a + 1) as f64
-            })
-            .collect();
-        let extent = (0..nfft)
-            .filter(|&d| smooth[d] > thr)
-            .map(|d| vel(d).abs())
-            .fold(0.0, f64::max);
+        // Extent, read off the fine-resolution (long-window) mean spectrum: the outermost
+        // Doppler where it stands out of the noise by 5 standard errors of a mean of
+        // F (2w+1) exponential values and by at least 0.5 dB (the noise reference is another
+        // cell), and lies within REL_DB (15 dB) of the blade level — the strongest level more
+        // than 2 m/s from the body line and from the clutter line (stationary returns land at
+        // -v_body after the body is demodulated). A short blade flash widens the spectrum
+        // beyond the tip's Doppler by about 1/(flash length), so at high SNR an edge read at
+        // the noise would overestimate the tip; reading it relative to the blade level
+        // does not. A blade tip's Doppler is an edge of
+        // the spectrum (sinusoidal FM piles its energy up at the extremes; Chen 2011).
+        let long_mean = self.long_mean(&z)?;
+        let kin = *kin;
+        let extent = match &long_mean {
+            Some((lm, lframes)) => {
+                let nl = lm.len();
+                let noise_l = noise * nfft as f64 / nl as f64;
+                let dvl = self.prf / nl as f64 * self.lambda / 2.0;
+                let vl = |i: usize| {
+                    // natural order: bins above nl/2 are negative
+                    let k = if i <= nl / 2 { i as f64 } else { i as f64 - nl as f64 };
+                    k * dvl
+                };
+                let w = (nl / 128).max(1);
+                let smooth: Vec<f64> = (0..nl)
+                    .map(|d| {
+                        let sum: f64 = (0..=2 * w).map(|j| lm[(d + nl + j - w) % nl]).sum();
+                        sum / (2 * w + 1) as f64
+                    })
+                    .collect();
+                // The blade level: the strongest smoothed value more than 2 m/s (and 8 bins)
+                // from the body, clear of the body line and its skirt.
+                let skirt = (2.0f64).max(8.0 * dvl);
+                let v_clutter = -kin.body_velocity_mps;
+                let peak = (0..nl)
+                    .filter(|&d| vl(d).abs() > skirt && (vl(d) - v_clutter).abs() > skirt)
+                    .map(|d| smooth[d])
+                    .fold(0.0, f64::max);
+                let thr = (noise_l
+                    * (1.0 + 5.0 / ((lframes * (2 * w + 1)) as f64).sqrt()).max(10f64.powf(0.05)))
+                .max(peak * 10f64.powf(-REL_DB / 10.0));
+                let e = (0..nl)
+                    .filter(|&d| smooth[d] > thr)
+                    .map(|d| vl(d).abs())
+                    .fold(0.0, f64::max);
+                e
+            }
+            None => 0.0,
+        };
         set(&mut v, F::MdExtent, extent);
         let body_hw = (0.5f64).max(2.0 * dv);
         if total > 0.0 {
@@ -318,7 +352,9 @@ impl Extractor {
         }
 
         // Cepstrum of the fine-resolution mean log spectrum.
-        self.cepstral(&z, &mut v)?;
+        if let Some((lm, _)) = &long_mean {
+            self.cepstral(lm, &mut v)?;
+        }
 
         // Cadence-velocity diagram of the spectrogram magnitude.
         self.cadence(&spec, (extent / dv).ceil() as usize, &mut v)?;
@@ -374,19 +410,30 @@ impl Extractor {
         peak_over_median(&band)
     }
 
-    fn cepstral(&mut self, z: &[Complex32], v: &mut [f64]) -> Result<()> {
+    /// Mean over frames of the long-window spectrogram (natural bin order) and the frame
+    /// count; `None` when the signal is shorter than one window.
+    fn long_mean(&mut self, z: &[Complex32]) -> Result<Option<(Vec<f64>, usize)>> {
         let nl = self.long.params().nperseg;
         if z.len() < nl {
-            return Ok(());
+            return Ok(None);
         }
         let spec = self.long.spectrogram(z, false)?;
-        let nfft = spec.ncols();
-        let mut mean = vec![0.0f64; nfft];
+        let frames = spec.nrows();
+        let mut mean = vec![0.0f64; spec.ncols()];
         for row in spec.rows() {
             for (d, &p) in row.iter().enumerate() {
                 mean[d] += p as f64;
             }
         }
+        for m in mean.iter_mut() {
+            *m /= frames.max(1) as f64;
+        }
+        Ok(Some((mean, frames)))
+    }
+
+    /// Cepstral features of a mean power spectrum in natural bin order.
+    fn cepstral(&mut self, mean: &[f64], v: &mut [f64]) -> Result<()> {
+        let nfft = mean.len();
         let frame: Vec<f32> = mean.iter().map(|&p| p as f32).collect();
         let mut c = vec![0.0f32; nfft];
         let mut buf = vec![Complex32::new(0.0, 0.0); nfft];
@@ -531,8 +578,8 @@ impl Extractor {
             .collect();
         let (f_best, db) = peak_over_median(&hs);
         // A harmonic may win the sum when the flashes are short (many equal harmonics):
-        // take the lowest subharmonic f/k (k = 4, 3, 2) whose sum is within 70% of the peak
-        // and which is itself a line (at least half the winner's line, 3x the background).
+        // take the lowest subharmonic f/k (k = 4, 3, 2) whose sum is within 60% of the peak
+        // and which is itself a line (a quarter of the winner's line, 3x the background).
         let hs_at = |f: f64| {
             let i = (f / df).round() as usize;
             if i < lo {
@@ -549,8 +596,8 @@ impl Extractor {
         for k in (2..=4).rev() {
             let f = f_best / k as f64;
             if f >= self.settings.flash_min_hz
-                && hs_at(f) >= 0.7 * peak
-                && line(f) >= (0.5 * line_best).max(3.0)
+                && hs_at(f) >= 0.6 * peak
+                && line(f) >= (0.25 * line_best).max(3.0)
             {
                 return (f, db);
             }

@@ -71,6 +71,16 @@ def main(argv):
         "held_out_accuracy": float(accuracy_score(y[test], clf.predict(x[test]))),
         "feature_importances": dict(zip(features, clf.feature_importances_.tolist())),
     }
+    # The same forest over five random states (one forest's accuracy on ~100 rows moves by
+    # a row or two with the seed), and with rotorsift's leaf size (min_samples_leaf=3).
+    for key, extra in (("held_out_accuracy_mean5", {}),
+                       ("held_out_accuracy_mean5_leaf3", {"min_samples_leaf": 3})):
+        accs = []
+        for rs in range(5):
+            m = RandomForestClassifier(n_estimators=200, class_weight="balanced",
+                                       random_state=rs, **extra).fit(x[train], y[train])
+            accs.append(float(accuracy_score(y[test], m.predict(x[test]))))
+        out[key] = float(np.mean(accs))
     print(json.dumps(out, indent=1))
     return 0
 
