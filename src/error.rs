@@ -12,13 +12,10 @@ pub enum Error {
     /// A parameter is out of its allowed range; the message names the value and the range.
     #[error("{0}")]
     Invalid(String),
-    /// An I/O failure, with the file it concerns.
-    #[error("{}: {source}", path.display())]
-    Io {
-        path: PathBuf,
-        #[source]
-        source: std::io::Error,
-    },
+    /// An I/O failure, with the file it concerns (the OS error is part of the message, so
+    /// it is not also chained as a source and printed twice).
+    #[error("{}: {err}", path.display())]
+    Io { path: PathBuf, err: std::io::Error },
 }
 
 /// Result with the library's [`Error`].
@@ -33,10 +30,10 @@ impl Error {
         }
     }
     /// Shorthand for an [`Error::Io`] error.
-    pub fn io(path: impl Into<PathBuf>, source: std::io::Error) -> Self {
+    pub fn io(path: impl Into<PathBuf>, err: std::io::Error) -> Self {
         Error::Io {
             path: path.into(),
-            source,
+            err,
         }
     }
 }

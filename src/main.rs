@@ -311,6 +311,8 @@ fn is_broken_pipe(e: &anyhow::Error) -> bool {
     e.chain().any(|c| {
         c.downcast_ref::<std::io::Error>()
             .is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe)
+            || matches!(c.downcast_ref::<rotorsift::Error>(),
+                Some(rotorsift::Error::Io { err, .. }) if err.kind() == std::io::ErrorKind::BrokenPipe)
     })
 }
 
@@ -377,6 +379,9 @@ fn run(cli: Cli) -> Result<ExitCode> {
             let settings = process.settings();
             settings.detect.check()?;
             let (analyses, failed) = analyse_all(&inputs, process.channel, &settings, true)?;
+            if analyses.is_empty() {
+                anyhow::bail!("no input recording could be read; {} left as it was", out.display());
+            }
             let rows = labelled_rows(&analyses);
             let text = report::features_csv::to_csv(&rows);
             rotorsift::recording::write_atomic(&out, text.as_bytes())?;
@@ -465,6 +470,9 @@ fn run(cli: Cli) -> Result<ExitCode> {
         } => {
             let clf = model.load()?;
             let (analyses, failed) = analyse_all(&inputs, model.channel, &clf.settings, true)?;
+            if !analyses.iter().any(|a| !a.meta.annotations.is_empty()) {
+                anyhow::bail!("no labelled targets to score: the recordings carry no annotations");
+            }
             let ev = pipeline::classify::evaluate(&analyses, &clf, model.min_confidence)?;
             let text = match format {
                 Format::Json => serde_json::to_string_pretty(&ev)? + "\n",

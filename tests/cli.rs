@@ -333,7 +333,6 @@ fn simulate_refuses_unknown_key_naming_it() {
 /// The same refusal in one line, as every other error of the tool
 /// (src/error.rs: "a single line fit for `rotorsift: error: ...`").
 #[test]
-#[ignore = "bug: scene errors are multi-line (the TOML parser's snippet with a caret and a blank line)"]
 fn simulate_unknown_key_error_is_one_line() {
     let tmp = tempfile::tempdir().unwrap();
     let dir = tmp.path();
@@ -352,7 +351,6 @@ fn simulate_unknown_key_error_is_one_line() {
 
 /// A missing file named on the command line gives one line that states the OS error once.
 #[test]
-#[ignore = "bug: I/O errors through main's `{e:#}` print the OS error twice (Error::Io shows its #[source] and anyhow appends it again)"]
 fn io_error_is_stated_once() {
     let tmp = tempfile::tempdir().unwrap();
     let dir = tmp.path();
@@ -760,7 +758,6 @@ fn hovering_rotorcraft_blade_flash_rate() {
 
 /// The same over several seeds (noise and rotor phases change, the physics does not).
 #[test]
-#[ignore = "bug: hover blade flash rate is 2x the truth on some seeds (seed 7: 329 Hz vs 162.6 Hz)"]
 fn hovering_blade_flash_rate_across_seeds() {
     let tmp = tempfile::tempdir().unwrap();
     let dir = tmp.path();
@@ -853,7 +850,6 @@ fn stationary_return_alone_or_without_phase_align_is_not_tracked() {
 /// constant phase: cancelled by the MTI filter, Richards 2014). Without the hovering
 /// rotorcraft, or with `--phase-align off`, it is not; with both it is on half the seeds.
 #[test]
-#[ignore = "bug: with phase alignment on (default), a 10 dBsm stationary point at 25 m beside a hovering rotorcraft is tracked on 3 of seeds 1-6 (1, 4, 5)"]
 fn stationary_return_beside_hovering_rotorcraft_is_not_tracked() {
     let tmp = tempfile::tempdir().unwrap();
     let dir = tmp.path();
@@ -1265,7 +1261,6 @@ fn features_out_is_atomic_and_written_on_success() {
 /// When every input is refused (here: one malformed recording), nothing was produced, so
 /// the existing output must stay as it was.
 #[test]
-#[ignore = "bug: features --out onto an existing file, every input refused: the old file is replaced by a header-only CSV"]
 fn features_keeps_old_file_when_every_input_is_refused() {
     let tmp = tempfile::tempdir().unwrap();
     let dir = tmp.path();

@@ -561,10 +561,13 @@ impl Extractor {
                 (logp[i] - local).exp()
             })
             .collect();
-        // Peak value within +-1 bin (the fundamental's bin may straddle).
+        // Line value at bin i: the largest whitened value within +-2% (at least +-1 bin),
+        // since a multirotor's rotors turn at rates a few per cent apart and each leaves its
+        // own line near N f_rot.
         let at = |i: usize| {
-            let a = i.saturating_sub(1);
-            let b = (i + 1).min(white.len() - 1);
+            let d = ((i as f64 * 0.02).round() as usize).max(1);
+            let a = i.saturating_sub(d);
+            let b = (i + d).min(white.len() - 1);
             white[a..=b].iter().cloned().fold(0.0, f64::max)
         };
         let hs: Vec<(f64, f64)> = (lo..=hi)
@@ -576,10 +579,34 @@ impl Extractor {
                 (i as f64 * df, s)
             })
             .collect();
-        let (f_best, db) = peak_over_median(&hs);
+        let (f_best, _) = peak_over_median(&hs);
+        // Strength: the harmonic sum of single lines (+-1 bin) at the chosen rate over its
+        // median across the band (the +-2% windows above raise the background).
+        let narrow = |i: usize| {
+            let a = i.saturating_sub(1);
+            let b = (i + 1).min(white.len() - 1);
+            white[a..=b].iter().cloned().fold(0.0, f64::max)
+        };
+        let hs_narrow = |i: usize| -> f64 {
+            (1..=4)
+                .filter(|k| i * k < white.len())
+                .map(|k| narrow(i * k))
+                .sum()
+        };
+        let strength = |f: f64| {
+            let band: Vec<f64> = (lo..=hi).map(hs_narrow).collect();
+            let med = median(&band).max(1e-30);
+            // the best single-line sum within +-2% of f (one rotor's lines)
+            let i = (f / df).round() as usize;
+            let d = ((i as f64 * 0.02).round() as usize).max(1);
+            let best = (i.saturating_sub(d)..=(i + d).min(hi))
+                .map(hs_narrow)
+                .fold(0.0, f64::max);
+            10.0 * (best / med).max(1e-30).log10()
+        };
         // A harmonic may win the sum when the flashes are short (many equal harmonics):
         // take the lowest subharmonic f/k (k = 4, 3, 2) whose sum is within 60% of the peak
-        // and which is itself a line (a quarter of the winner's line, 3x the background).
+        // and which is itself a line (a quarter of the winner's line, 6x the background).
         let hs_at = |f: f64| {
             let i = (f / df).round() as usize;
             if i < lo {
@@ -597,12 +624,12 @@ impl Extractor {
             let f = f_best / k as f64;
             if f >= self.settings.flash_min_hz
                 && hs_at(f) >= 0.6 * peak
-                && line(f) >= (0.25 * line_best).max(3.0)
+                && line(f) >= (0.25 * line_best).max(6.0)
             {
-                return (f, db);
+                return (f, strength(f));
             }
         }
-        (f_best, db)
+        (f_best, strength(f_best))
     }
 }
 

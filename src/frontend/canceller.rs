@@ -177,7 +177,7 @@ impl FromStr for Canceller {
 /// removes chirp-to-chirp oscillator phase jitter common to all cells. The estimate uses
 /// the stationary cells only: `phi` = the argument of the weighted mean over cells of the
 /// unit phasors of `cur[k] conj(prev[k])`, over cells whose slow-time mean power `|mean_k|^2` holds at
-/// least 90% of their mean power (exponential averages over about 256 chirps), weighted by
+/// least 99% of their mean power (exponential averages over about 256 chirps), weighted by
 /// `|mean_k|^2` capped at 4x the median weight — so a mover or blade return, or a target
 /// passing through the strongest clutter cell, does not steer it.
 ///
@@ -212,6 +212,11 @@ pub struct CancellerState {
     cell_steps: Vec<(f64, f64)>,
     weights: Vec<f64>,
 }
+
+/// Share of a cell's mean power its slow-time mean must hold for the cell to count as
+/// stationary in the phase-step estimate (a rotor's blade flashes, a mover or vegetation
+/// take more than 1% and are left out).
+const STATIONARY_SHARE: f32 = 0.99;
 
 /// Averaging factor of the stationarity statistics (about 256 chirps).
 const STATIONARY_ALPHA: f32 = 1.0 / 256.0;
@@ -250,7 +255,7 @@ impl CancellerState {
         self.cell_steps.clear();
         for (k, (c, p)) in chirp.iter().zip(&self.history[0]).enumerate() {
             let dc = self.mean[k].norm_sqr();
-            if dc <= 0.0 || dc < 0.9 * self.power[k] {
+            if dc <= 0.0 || dc < STATIONARY_SHARE * self.power[k] {
                 continue;
             }
             let v = c * p.conj();

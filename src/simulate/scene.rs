@@ -442,6 +442,21 @@ impl ObjectSpec {
     }
 }
 
+/// A TOML error in one line: `line L, column C: message` (the parser's own text spans
+/// several lines with a source excerpt).
+fn toml_error_line(text: &str, e: &toml::de::Error) -> String {
+    let msg = e.message().split_whitespace().collect::<Vec<_>>().join(" ");
+    match e.span() {
+        Some(span) => {
+            let before = &text[..span.start.min(text.len())];
+            let line = before.matches('\n').count() + 1;
+            let col = before.len() - before.rfind('\n').map(|i| i + 1).unwrap_or(0) + 1;
+            format!("line {line}, column {col}: {msg}")
+        }
+        None => msg,
+    }
+}
+
 /// One run: what one recording holds.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Scene {
@@ -500,7 +515,7 @@ impl Scene {
     /// Parses scene text (one run or `[[run]]` list) and validates every run. A run's seed
     /// is its own `seed`, else the file's `seed` plus the run's index, else the index.
     pub fn parse_all(text: &str) -> Result<Vec<Scene>> {
-        let f: SceneFile = toml::from_str(text).map_err(|e| Error::Invalid(e.to_string()))?;
+        let f: SceneFile = toml::from_str(text).map_err(|e| Error::Invalid(toml_error_line(text, &e)))?;
         let base_seed = f.seed.unwrap_or(0);
         let mut runs = Vec::new();
         if f.run.is_empty() {
