@@ -380,7 +380,10 @@ fn run(cli: Cli) -> Result<ExitCode> {
             settings.detect.check()?;
             let (analyses, failed) = analyse_all(&inputs, process.channel, &settings, true)?;
             if analyses.is_empty() {
-                anyhow::bail!("no input recording could be read; {} left as it was", out.display());
+                anyhow::bail!(
+                    "no input recording could be read; {} left as it was",
+                    out.display()
+                );
             }
             let rows = labelled_rows(&analyses);
             let text = report::features_csv::to_csv(&rows);

@@ -22,7 +22,9 @@ fn held_out_accuracy_matches_scikit_learn() {
     let mut lines = csv.lines();
     let header: Vec<&str> = lines.next().unwrap().split(',').collect();
     let feat_cols: Vec<usize> = (0..header.len())
-        .filter(|&i| header[i] != "recording" && header[i] != "label" && !header[i].starts_with("id_"))
+        .filter(|&i| {
+            header[i] != "recording" && header[i] != "label" && !header[i].starts_with("id_")
+        })
         .collect();
     let (mut rows, mut labels, mut groups) = (Vec::new(), Vec::new(), Vec::new());
     for line in lines {
@@ -30,14 +32,24 @@ fn held_out_accuracy_matches_scikit_learn() {
         if f[1].is_empty() {
             continue;
         }
-        rows.push(feat_cols.iter().map(|&i| f[i].parse::<f64>().unwrap()).collect::<Vec<_>>());
+        rows.push(
+            feat_cols
+                .iter()
+                .map(|&i| f[i].parse::<f64>().unwrap())
+                .collect::<Vec<_>>(),
+        );
         labels.push(f[1].to_string());
         groups.push(f[0].to_string());
     }
     let names: Vec<String> = feat_cols.iter().map(|&i| header[i].to_string()).collect();
-    assert_eq!(names, rotorsift::features::names::names(), "CSV is from this feature list");
+    assert_eq!(
+        names,
+        rotorsift::features::names::names(),
+        "CSV is from this feature list"
+    );
     let data = Dataset::from_rows(&rows, &labels, &groups, names).unwrap();
-    let peer: serde_json::Value = serde_json::from_str(&reference("forest_peer_demo.json")).unwrap();
+    let peer: serde_json::Value =
+        serde_json::from_str(&reference("forest_peer_demo.json")).unwrap();
     let test_groups: Vec<String> = peer["test_recordings"]
         .as_array()
         .unwrap()
@@ -51,11 +63,21 @@ fn held_out_accuracy_matches_scikit_learn() {
     let mut acc = 0.0;
     let seeds = [0u64, 1, 2, 3, 4];
     for &seed in &seeds {
-        let forest = Forest::fit(&data, &train, &ForestParams { seed, ..ForestParams::default() }).unwrap();
+        let forest = Forest::fit(
+            &data,
+            &train,
+            &ForestParams {
+                seed,
+                ..ForestParams::default()
+            },
+        )
+        .unwrap();
         let correct = test
             .iter()
             .filter(|&&i| {
-                let p = forest.predict_proba(data.features.row(i).as_slice().unwrap()).unwrap();
+                let p = forest
+                    .predict_proba(data.features.row(i).as_slice().unwrap())
+                    .unwrap();
                 rotorsift::model::forest::argmax(&p) == data.labels[i]
             })
             .count();
@@ -68,6 +90,12 @@ fn held_out_accuracy_matches_scikit_learn() {
     // implausible margin, which would point at a leak between the two sides of the split.
     let sk = peer["held_out_accuracy_mean5"].as_f64().unwrap();
     eprintln!("held-out accuracy: rotorsift {acc:.4}, scikit-learn {sk:.4} (mean of 5 seeds)");
-    assert!(acc >= sk - 0.02, "rotorsift {acc:.4} is more than 2 points under scikit-learn {sk:.4}");
-    assert!(acc <= sk + 0.05, "rotorsift {acc:.4} implausibly above scikit-learn {sk:.4}");
+    assert!(
+        acc >= sk - 0.02,
+        "rotorsift {acc:.4} is more than 2 points under scikit-learn {sk:.4}"
+    );
+    assert!(
+        acc <= sk + 0.05,
+        "rotorsift {acc:.4} implausibly above scikit-learn {sk:.4}"
+    );
 }

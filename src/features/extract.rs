@@ -279,7 +279,11 @@ impl Extractor {
                 let dvl = self.prf / nl as f64 * self.lambda / 2.0;
                 let vl = |i: usize| {
                     // natural order: bins above nl/2 are negative
-                    let k = if i <= nl / 2 { i as f64 } else { i as f64 - nl as f64 };
+                    let k = if i <= nl / 2 {
+                        i as f64
+                    } else {
+                        i as f64 - nl as f64
+                    };
                     k * dvl
                 };
                 let w = (nl / 128).max(1);
@@ -300,11 +304,10 @@ impl Extractor {
                 let thr = (noise_l
                     * (1.0 + 5.0 / ((lframes * (2 * w + 1)) as f64).sqrt()).max(10f64.powf(0.05)))
                 .max(peak * 10f64.powf(-REL_DB / 10.0));
-                let e = (0..nl)
+                (0..nl)
                     .filter(|&d| smooth[d] > thr)
                     .map(|d| vl(d).abs())
-                    .fold(0.0, f64::max);
-                e
+                    .fold(0.0, f64::max)
             }
             None => 0.0,
         };

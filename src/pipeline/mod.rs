@@ -174,46 +174,43 @@ pub fn analyse(
     let p = &meta.params;
     let half_cpi = run.cpi_s / 2.0;
     let duration = meta.duration_s();
-    let signals = if with_features {
+    let none = RotorEstimates {
+        blade_flash_hz: None,
+        tip_speed_mps: None,
+        blade_length_m: None,
+    };
+    let kins: Vec<TrackKinematics> = run.tracks.iter().map(kinematics).collect();
+    let mut results: Vec<(Vec<f64>, RotorEstimates)> = vec![(Vec::new(), none); run.tracks.len()];
+    if with_features && !run.tracks.is_empty() {
+        let mut ex = Extractor::new(&settings.features, p.prf_hz(), p.wavelength_m())?;
         let max_chirps = (settings.features.max_track_s / p.chirp_interval_s) as usize;
-        track_signals(meta, channel, &settings.detect, &run.tracks, max_chirps)?
-    } else {
-        Vec::new()
-    };
-    let mut extractor = if with_features {
-        Some(Extractor::new(
-            &settings.features,
-            p.prf_hz(),
-            p.wavelength_m(),
-        )?)
-    } else {
-        None
-    };
-    let mut tracks = Vec::with_capacity(run.tracks.len());
-    for (i, track) in run.tracks.into_iter().enumerate() {
-        let kin = kinematics(&track);
-        let (features, rotor) = match (&mut extractor, signals.get(i)) {
-            (Some(ex), Some(sig)) => {
-                ex.extract(&sig.samples, &[&sig.reference, &sig.reference2], &kin)?
-            }
-            _ => (
-                Vec::new(),
-                RotorEstimates {
-                    blade_flash_hz: None,
-                    tip_speed_mps: None,
-                    blade_length_m: None,
-                },
-            ),
-        };
-        tracks.push(AnalysedTrack {
+        track_signals(
+            meta,
+            channel,
+            &settings.detect,
+            &run.tracks,
+            max_chirps,
+            &mut |j, sig| {
+                results[j] =
+                    ex.extract(&sig.samples, &[&sig.reference, &sig.reference2], &kins[j])?;
+                Ok(())
+            },
+        )?;
+    }
+    let tracks = run
+        .tracks
+        .into_iter()
+        .zip(kins)
+        .zip(results)
+        .map(|((track, kin), (features, rotor))| AnalysedTrack {
             start_s: (track.start_s - half_cpi).max(0.0),
             end_s: (track.end_s + half_cpi).min(duration),
             track,
             kinematics: kin,
             features,
             rotor,
-        });
-    }
+        })
+        .collect();
     Ok(RecordingAnalysis {
         meta: meta.clone(),
         tracks,

@@ -110,30 +110,34 @@ fn bin_at(track: &Track, meta: &RecordingMeta, t_s: f64) -> f64 {
     meta.params.bin_of_range(r).clamp(0.0, last)
 }
 
-/// Collects the slow-time signal of every track in one streaming pass.
+/// Collects the slow-time signal of every track in one streaming pass, handing each to
+/// `done(track_index, signal)` as soon as the pass moves past the end of its span, so only
+/// the tracks open at the same moment are held in memory, not every track of the recording.
+/// Every track is handed over exactly once (an empty signal when its span is empty).
 pub fn track_signals(
     meta: &RecordingMeta,
     channel: usize,
     s: &DetectSettings,
     tracks: &[Track],
     max_chirps: usize,
-) -> Result<Vec<TrackSignal>> {
+    done: &mut dyn FnMut(usize, TrackSignal) -> Result<()>,
+) -> Result<()> {
     let spans: Vec<(usize, usize)> = tracks
         .iter()
         .map(|tr| track_span(tr, meta, s, max_chirps))
         .collect();
-    let mut out: Vec<TrackSignal> = spans
+    let mut open: Vec<Option<TrackSignal>> = spans
         .iter()
-        .map(|&(a, b)| TrackSignal {
-            first_chirp: a,
-            samples: Vec::with_capacity(b - a),
-            reference: Vec::with_capacity(b - a),
-            reference2: Vec::with_capacity(b - a),
+        .map(|&(a, _)| {
+            Some(TrackSignal {
+                first_chirp: a,
+                samples: Vec::new(),
+                reference: Vec::new(),
+                reference2: Vec::new(),
+            })
         })
         .collect();
-    if tracks.is_empty() {
-        return Ok(out);
-    }
+    // Spans that are empty, or lie beyond what is read, are handed over at the end.
     let first = spans.iter().map(|s| s.0).min().unwrap_or(0);
     let last = spans.iter().map(|s| s.1).max().unwrap_or(0);
     let gate = RangeGate::new(meta, s);
@@ -150,12 +154,14 @@ pub fn track_signals(
         }
         for i in 0..got {
             let chirp = block.first_chirp + i;
-            let inside = |sp: &(usize, usize)| chirp >= sp.0 && chirp < sp.1;
             let x = block.chirp(i);
             for (j, sp) in spans.iter().enumerate() {
-                if !inside(sp) {
+                if chirp < sp.0 || chirp >= sp.1 {
                     continue;
                 }
+                let Some(sig) = open[j].as_mut() else {
+                    continue;
+                };
                 let kappa = bin_at(&tracks[j], meta, chirp as f64 * t);
                 let fold = |k: f64| {
                     if k < 0.0 {
@@ -170,12 +176,22 @@ pub fn track_signals(
                     fold(kappa + REFERENCE_OFFSET_CELLS),
                     fold(kappa - REFERENCE_OFFSET_CELLS),
                 );
-                out[j].samples.push(gate.at(x, kappa));
-                out[j].reference.push(gate.at(x, k1));
-                out[j].reference2.push(gate.at(x, k2));
+                sig.samples.push(gate.at(x, kappa));
+                sig.reference.push(gate.at(x, k1));
+                sig.reference2.push(gate.at(x, k2));
+                if chirp + 1 == sp.1 {
+                    if let Some(sig) = open[j].take() {
+                        done(j, sig)?;
+                    }
+                }
             }
         }
         m += got;
     }
-    Ok(out)
+    for (j, sig) in open.iter_mut().enumerate() {
+        if let Some(sig) = sig.take() {
+            done(j, sig)?;
+        }
+    }
+    Ok(())
 }

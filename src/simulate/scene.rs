@@ -515,7 +515,8 @@ impl Scene {
     /// Parses scene text (one run or `[[run]]` list) and validates every run. A run's seed
     /// is its own `seed`, else the file's `seed` plus the run's index, else the index.
     pub fn parse_all(text: &str) -> Result<Vec<Scene>> {
-        let f: SceneFile = toml::from_str(text).map_err(|e| Error::Invalid(toml_error_line(text, &e)))?;
+        let f: SceneFile =
+            toml::from_str(text).map_err(|e| Error::Invalid(toml_error_line(text, &e)))?;
         let base_seed = f.seed.unwrap_or(0);
         let mut runs = Vec::new();
         if f.run.is_empty() {
