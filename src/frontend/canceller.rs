@@ -581,18 +581,20 @@ mod tests {
     }
 
     // Phase-aligned cancelling: strong stationary clutter in every cell, each chirp rotated
-    // by a random oscillator phase (uniform +-0.3 rad). Common practice (phase-noise
+    // by a random oscillator phase (uniform +-0.05 rad: the stationarity test keeps cells
+    // whose slow-time mean holds 99% of their power, which a common jitter above ~0.1 rad
+    // rms would defeat; oscillator phase noise is usually mrad). Common practice (phase-noise
     // compensation on a dominant stationary return); the aligned residue must be far smaller.
     #[test]
     fn phase_alignment_removes_common_jitter() {
         let cells = 64;
-        let chirps = 200;
+        let chirps = 1000;
         let clutter = random_complex(cells, 5);
         let noise = random_complex(cells * chirps, 6);
         let mut rng = ChaCha8Rng::seed_from_u64(9);
         let mut x = Vec::with_capacity(cells * chirps);
         for m in 0..chirps {
-            let j = Complex32::from_polar(1.0, rng.gen_range(-0.3f32..0.3));
+            let j = Complex32::from_polar(1.0, rng.gen_range(-0.05f32..0.05));
             for k in 0..cells {
                 x.push((clutter[k] * 1000.0 + noise[m * cells + k]) * j);
             }
@@ -610,8 +612,8 @@ mod tests {
                 10.0 * aligned.log10(),
                 10.0 * white.log10()
             );
-            assert!(aligned < plain / 1000.0, "{kind}: {aligned} vs {plain}");
-            assert!(aligned < 3.0 * white, "{kind}: aligned {aligned}");
+            assert!(aligned < plain / 100.0, "{kind}: {aligned} vs {plain}");
+            assert!(aligned < 1.5 * white, "{kind}: aligned {aligned}");
         }
     }
 

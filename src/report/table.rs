@@ -38,14 +38,27 @@ impl Table {
                 w[i] = w[i].max(c.chars().count());
             }
         }
+        let is_num = |c: &str| {
+            !c.is_empty() && c.chars().all(|ch| ch.is_ascii_digit() || "+-.eE%".contains(ch))
+        };
+        // A column is numeric (right-aligned, header too) when its non-blank cells are.
+        let numeric_col: Vec<bool> = (0..cols)
+            .map(|i| {
+                let mut cells = self.rows.iter().filter_map(|r| r.get(i)).filter(|c| !c.is_empty() && c.as_str() != "-");
+                let mut any = false;
+                let all = cells.all(|c| {
+                    any = true;
+                    is_num(c)
+                });
+                any && all
+            })
+            .collect();
         let mut out = String::new();
         let line = |out: &mut String, cells: &[String]| {
             let mut s = String::new();
             for (i, width) in w.iter().enumerate() {
                 let c = cells.get(i).map(String::as_str).unwrap_or("");
-                let numeric = !c.is_empty()
-                    && c.chars()
-                        .all(|ch| ch.is_ascii_digit() || "+-.eE%".contains(ch));
+                let numeric = numeric_col[i];
                 if i > 0 {
                     s.push_str("  ");
                 }
