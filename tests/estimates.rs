@@ -32,7 +32,8 @@ fn blade_flash_rate_and_tip_speed_match_the_truth() {
             let matched = match_tracks(&spans, &meta.annotations, &meta.params);
             let vmax = meta.params.unambiguous_velocity_mps();
             for (k, ann) in meta.annotations.iter().enumerate() {
-                if ann.label != "rotorcraft" || ann.truth_f64("blade_snr_db").unwrap_or(0.0) < 10.0 {
+                if ann.label != "rotorcraft" || ann.truth_f64("blade_snr_db").unwrap_or(0.0) < 10.0
+                {
                     continue;
                 }
                 let best = a
@@ -70,8 +71,17 @@ fn blade_flash_rate_and_tip_speed_match_the_truth() {
     tip_errors.sort_by(|a, b| a.total_cmp(b));
     let median_tip = tip_errors[tip_errors.len() / 2];
     eprintln!("flash within 5%: {flash_ok}/{flash_n}; tip within 5%: {tip_ok}/{tip_n}; median |tip error| {median_tip:.3}");
-    assert!(flash_n >= 15 && tip_n >= 15, "enough clear rotorcraft: {flash_n}, {tip_n}");
-    assert!(flash_ok as f64 >= 0.8 * flash_n as f64, "flash within 5%: {flash_ok}/{flash_n}");
-    assert!(tip_ok as f64 >= 0.6 * tip_n as f64, "tip within 5%: {tip_ok}/{tip_n}");
+    assert!(
+        flash_n >= 15 && tip_n >= 15,
+        "enough clear rotorcraft: {flash_n}, {tip_n}"
+    );
+    assert!(
+        flash_ok as f64 >= 0.8 * flash_n as f64,
+        "flash within 5%: {flash_ok}/{flash_n}"
+    );
+    assert!(
+        tip_ok as f64 >= 0.6 * tip_n as f64,
+        "tip within 5%: {tip_ok}/{tip_n}"
+    );
     assert!(median_tip <= 0.05, "median tip error {median_tip:.3}");
 }

@@ -113,6 +113,11 @@ fn input_forms_resolve_to_the_same_recording() {
     assert_eq!(dir.len(), 4);
     assert!(dir.windows(2).all(|w| w[0] < w[1]), "sorted by path");
     assert!(resolve_inputs(&[fixtures().join("nope")]).is_err());
+    // The same recording named twice (meta and data, as a shell glob gives) comes once.
+    let twice =
+        resolve_inputs(&[base.with_extension("sigmf-data"), want.clone(), fixtures()]).unwrap();
+    assert_eq!(twice.len(), 4);
+    assert_eq!(twice[0], want);
 }
 
 /// Copies a fixture to a temp dir with its metadata JSON edited by `edit`.

@@ -6,7 +6,8 @@ use std::path::{Path, PathBuf};
 
 use crate::error::{Error, Result};
 
-/// The `.sigmf-meta` paths named by `inputs`, in order (directories expanded and sorted).
+/// The `.sigmf-meta` paths named by `inputs`, in order (directories expanded and sorted),
+/// each recording once.
 pub fn resolve_inputs(inputs: &[PathBuf]) -> Result<Vec<PathBuf>> {
     let mut out = Vec::new();
     for p in inputs {
@@ -25,6 +26,10 @@ pub fn resolve_inputs(inputs: &[PathBuf]) -> Result<Vec<PathBuf>> {
             out.push(meta_path_of(p)?);
         }
     }
+    // A recording named twice (e.g. NAME.sigmf-meta and NAME.sigmf-data from a shell glob)
+    // is analysed once, at its first place.
+    let mut seen = std::collections::HashSet::new();
+    out.retain(|p| seen.insert(p.clone()));
     Ok(out)
 }
 

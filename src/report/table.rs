@@ -39,12 +39,18 @@ impl Table {
             }
         }
         let is_num = |c: &str| {
-            !c.is_empty() && c.chars().all(|ch| ch.is_ascii_digit() || "+-.eE%".contains(ch))
+            !c.is_empty()
+                && c.chars()
+                    .all(|ch| ch.is_ascii_digit() || "+-.eE%".contains(ch))
         };
         // A column is numeric (right-aligned, header too) when its non-blank cells are.
         let numeric_col: Vec<bool> = (0..cols)
             .map(|i| {
-                let mut cells = self.rows.iter().filter_map(|r| r.get(i)).filter(|c| !c.is_empty() && c.as_str() != "-");
+                let mut cells = self
+                    .rows
+                    .iter()
+                    .filter_map(|r| r.get(i))
+                    .filter(|c| !c.is_empty() && c.as_str() != "-");
                 let mut any = false;
                 let all = cells.all(|c| {
                     any = true;
