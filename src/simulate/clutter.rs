@@ -128,7 +128,7 @@ impl AcProcess {
         out.iter_mut().for_each(|z| *z *= s);
     }
 
-    /// The next sample: w(p + H) a[p + H] + w(p) b[p], w(i) = sin(pi (i + 1/2) / len),
+    /// The next sample: w(p + H) a\[p + H\] + w(p) b\[p\], w(i) = sin(pi (i + 1/2) / len),
     /// H = len / 2 (w(i)^2 + w(i + H)^2 = 1, so the variance stays 1).
     pub fn next_sample(&mut self) -> Complex64 {
         let h = self.a.len() / 2;
