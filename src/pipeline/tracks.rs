@@ -93,11 +93,9 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
     let lambda = p.wavelength_m();
     let mut fe = FrontEnd::new(meta, s)?;
     let mut canc = CancellerState::new(s.canceller, k, s.phase_align)?;
-    let mut rd = RangeDopplerPlan::new(m, s.doppler_window)?;
-    let mut rd_slow = RangeDopplerPlan::new(m, s.doppler_window)?;
     let noise_params = NoiseFloorParams::new(s.noise_half_window, s.noise_smoothing);
-    let mut noise = NoiseFloor::new(noise_params)?;
-    let mut noise_slow = NoiseFloor::new(noise_params)?;
+    let mut cancelled = MapPath::new(k, m, prf, s, noise_params)?;
+    let mut clutter_path = MapPath::new(k, m, prf, s, noise_params)?;
     let tau = ((s.clutter_map_s / p.chirp_interval_s).round() as usize).max(m);
     // Not phase-aligned: the alignment estimate's own noise would modulate strong returns;
     // what common phase noise leaks through is rejected by the leak rule below instead.
@@ -119,16 +117,8 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
     let allowed_notch = Array2::from_shape_fn((k, m), |(r, d)| r >= skip && notch[d]);
 
     let zero = Complex32::new(0.0, 0.0);
-    let mut ring_c = vec![zero; m * k];
-    let mut ring_s = vec![zero; m * k];
-    let mut cpi_c = vec![zero; m * k];
-    let mut cpi_s = vec![zero; m * k];
     let mut out = vec![zero; k];
     let mut out_s = vec![zero; k];
-    let mut map = RangeDopplerMap::zeros(k, m, prf);
-    let mut slow = RangeDopplerMap::zeros(k, m, prf);
-    let mut norm = Array2::<f32>::zeros((k, m));
-    let mut norm_s = Array2::<f32>::zeros((k, m));
     let mut hits: Vec<CfarHit> = Vec::new();
     let mut md_hits: Vec<MicroDopplerHit> = Vec::new();
     let mut dets: Vec<Detection> = Vec::new();
@@ -151,12 +141,12 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
             let prof = fe.range_profile(&block, i)?;
             let ready = canc.push(prof, &mut out)?;
             cmap.push(prof, &mut out_s);
-            ring_s[pos * k..(pos + 1) * k].copy_from_slice(&out_s);
+            clutter_path.ring[pos * k..(pos + 1) * k].copy_from_slice(&out_s);
             if ready {
-                ring_c[pos * k..(pos + 1) * k].copy_from_slice(&out);
+                cancelled.ring[pos * k..(pos + 1) * k].copy_from_slice(&out);
                 valid += 1;
             } else {
-                ring_c[pos * k..(pos + 1) * k].fill(zero);
+                cancelled.ring[pos * k..(pos + 1) * k].fill(zero);
             }
             pos = (pos + 1) % m;
             since += 1;
@@ -167,25 +157,15 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
             let last_chirp = block.first_chirp + i;
             let first_chirp = last_chirp + 1 - m;
             let t_s = (first_chirp as f64 + m as f64 / 2.0) * p.chirp_interval_s;
-            unroll(&ring_c, pos, k, &mut cpi_c);
-            rd.process_into(&cpi_c, prf, &mut map)?;
-            noise.update(&map)?;
-            noise.normalise_into(&map, &mut norm)?;
-            for r in 0..skip {
-                norm.row_mut(r).fill(1.0);
-            }
+            cancelled.normalised_map(pos, skip)?;
+            let norm = &cancelled.norm;
             cfar.detect(norm.view(), Some(allowed.view()), &mut hits)?;
             clusterer.cluster(&hits, &range_of_cell, &vel_of_bin, &in_notch, &mut dets);
             n_cfar += dets.len();
             let before = dets.len();
             // Clutter-map path: bodies inside the notch.
-            unroll(&ring_s, pos, k, &mut cpi_s);
-            rd_slow.process_into(&cpi_s, prf, &mut slow)?;
-            noise_slow.update(&slow)?;
-            noise_slow.normalise_into(&slow, &mut norm_s)?;
-            for r in 0..skip {
-                norm_s.row_mut(r).fill(1.0);
-            }
+            clutter_path.normalised_map(pos, skip)?;
+            let (slow, norm_s) = (&clutter_path.map, &clutter_path.norm);
             cfar_slow.detect(norm_s.view(), Some(allowed_notch.view()), &mut hits)?;
             // Leak rule (a clutter-map threshold): a strong stationary return leaks part of
             // its power through any phase noise, spread white over the Doppler bins
@@ -215,7 +195,7 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
             md.detect(norm.view(), &outside, &mut md_hits);
             md_hits.retain(|h| h.range >= skip);
             if !md_hits.is_empty() {
-                add_notch_detections(&md_hits, &mut dets, p, &axis, &norm_s);
+                add_notch_detections(&md_hits, &mut dets, p, &axis, norm_s);
             }
             n_notch += dets.len() - before;
             tracker.update(cpis, t_s, &dets)?;
@@ -237,6 +217,47 @@ fn covered(d: &Detection, dets: &[Detection], cell: f64) -> bool {
     dets.iter().any(|e| {
         d.range_max_m >= e.range_min_m - 1.5 * cell && d.range_min_m <= e.range_max_m + 1.5 * cell
     })
+}
+
+/// One processing path of pass one: a ring of the last CPI's chirps, its range-Doppler
+/// map and that map normalised by its noise floor (plans and buffers made once).
+struct MapPath {
+    ring: Vec<Complex32>,
+    cpi: Vec<Complex32>,
+    plan: RangeDopplerPlan,
+    noise: NoiseFloor,
+    map: RangeDopplerMap,
+    norm: Array2<f32>,
+    cells: usize,
+    prf: f64,
+}
+
+impl MapPath {
+    fn new(k: usize, m: usize, prf: f64, s: &DetectSettings, np: NoiseFloorParams) -> Result<Self> {
+        let zero = Complex32::new(0.0, 0.0);
+        Ok(MapPath {
+            ring: vec![zero; m * k],
+            cpi: vec![zero; m * k],
+            plan: RangeDopplerPlan::new(m, s.doppler_window)?,
+            noise: NoiseFloor::new(np)?,
+            map: RangeDopplerMap::zeros(k, m, prf),
+            norm: Array2::zeros((k, m)),
+            cells: k,
+            prf,
+        })
+    }
+    /// Range-Doppler map of the ring (next write position `pos`), noise floor updated,
+    /// normalised into `norm`; the first `skip` range cells are set to the noise level.
+    fn normalised_map(&mut self, pos: usize, skip: usize) -> Result<()> {
+        unroll(&self.ring, pos, self.cells, &mut self.cpi);
+        self.plan.process_into(&self.cpi, self.prf, &mut self.map)?;
+        self.noise.update(&self.map)?;
+        self.noise.normalise_into(&self.map, &mut self.norm)?;
+        for r in 0..skip {
+            self.norm.row_mut(r).fill(1.0);
+        }
+        Ok(())
+    }
 }
 
 /// Copies a ring of `m` chirps (next write position `pos`) into time order.
