@@ -191,6 +191,17 @@ fn parse_cfar(s: &str) -> std::result::Result<CfarKind, String> {
 }
 
 impl ProcessArgs {
+    /// Checked settings, and every input analysed with them (bad inputs reported).
+    fn analyse(
+        &self,
+        inputs: &[PathBuf],
+    ) -> Result<(PipelineSettings, Vec<pipeline::RecordingAnalysis>, bool)> {
+        let settings = self.settings();
+        settings.detect.check()?;
+        let (analyses, failed) = analyse_all(inputs, self.channel, &settings, true)?;
+        Ok((settings, analyses, failed))
+    }
+
     fn settings(&self) -> PipelineSettings {
         let mut s = PipelineSettings::default();
         let d = &mut s.detect;
@@ -376,9 +387,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 return Ok(ExitCode::SUCCESS);
             }
             let out = out.context("--out FILE.csv is required")?;
-            let settings = process.settings();
-            settings.detect.check()?;
-            let (analyses, failed) = analyse_all(&inputs, process.channel, &settings, true)?;
+            let (_, analyses, failed) = process.analyse(&inputs)?;
             if analyses.is_empty() {
                 anyhow::bail!(
                     "no input recording could be read; {} left as it was",
@@ -406,9 +415,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
             process,
             format,
         } => {
-            let settings = process.settings();
-            settings.detect.check()?;
-            let (analyses, failed) = analyse_all(&inputs, process.channel, &settings, true)?;
+            let (settings, analyses, failed) = process.analyse(&inputs)?;
             let opts = pipeline::classify::TrainOptions {
                 holdout_fraction,
                 seed,
@@ -496,9 +503,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
             process,
             format,
         } => {
-            let settings = process.settings();
-            settings.detect.check()?;
-            let (analyses, failed) = analyse_all(&inputs, process.channel, &settings, true)?;
+            let (_, analyses, failed) = process.analyse(&inputs)?;
             let report = report::tracks::TrackReport {
                 tool_version: rotorsift::VERSION,
                 model: None,
