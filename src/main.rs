@@ -91,6 +91,9 @@ enum Command {
         /// Train on unmatched tracks too, with this label.
         #[arg(long)]
         unlabelled_as: Option<String>,
+        /// Also score a grouped k-fold cross-validation by recording (0 = off).
+        #[arg(long, default_value_t = 5)]
+        folds: usize,
         #[command(flatten)]
         process: ProcessArgs,
         /// Output format of the report.
@@ -412,6 +415,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
             seed,
             trees,
             unlabelled_as,
+            folds,
             process,
             format,
         } => {
@@ -421,19 +425,27 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 seed,
                 trees,
                 unlabelled_as,
+                folds,
             };
             let (file, rep) = pipeline::classify::train(&analyses, &settings, &opts)?;
             file.save(&model)?;
             let text = match format {
                 Format::Json => serde_json::to_string_pretty(&rep)? + "\n",
                 Format::Table => format!(
-                    "trained on {} tracks ({} recordings); held out {} tracks of {} recordings; {} unmatched tracks left out\n\nheld-out confusion matrix (rows true, columns predicted):\n{}\nfeature importances (top 12):\n{}\nmodel written to {}\n",
+                    "trained on {} tracks ({} recordings); held out {} tracks of {} recordings; {} unmatched tracks left out\n\nheld-out confusion matrix (rows true, columns predicted):\n{}\n{}feature importances (top 12):\n{}\nmodel written to {}\n",
                     rep.train_tracks,
                     rep.train_recordings,
                     rep.test_tracks,
                     rep.test_recordings.len(),
                     rep.tracks_unmatched,
                     report::scores::render(&rep.heldout),
+                    rep.cross_validated
+                        .as_ref()
+                        .map(|cv| format!(
+                            "grouped {folds}-fold cross-validation by recording (every recording held out once):\n{}\n",
+                            report::scores::render(cv)
+                        ))
+                        .unwrap_or_default(),
                     report::scores::importance_table(&rep.importances, 12).render(),
                     model.display()
                 ),

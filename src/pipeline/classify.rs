@@ -55,6 +55,8 @@ pub struct TrainOptions {
     pub seed: u64,
     pub trees: usize,
     pub unlabelled_as: Option<String>,
+    /// Also score a grouped k-fold cross-validation by recording (0 = off).
+    pub folds: usize,
 }
 
 /// What `train` measured and made.
@@ -71,6 +73,9 @@ pub struct TrainReport {
     /// Feature importances (mean decrease in impurity), largest first.
     pub importances: Vec<(String, f64)>,
     pub oob_accuracy: f64,
+    /// Track-level scores of a grouped k-fold cross-validation (every recording held out
+    /// once), when asked for.
+    pub cross_validated: Option<Scores>,
 }
 
 /// Trains on labelled analyses: scores a forest fitted on the training recordings on the
@@ -111,6 +116,26 @@ pub fn train(
         probs.push(p);
     }
     let heldout = Scores::compute(data.class_names.clone(), &y_true, &y_pred, Some(&probs))?;
+    let cross_validated = if opts.folds >= 2 {
+        let (mut t, mut p, mut pr) = (Vec::new(), Vec::new(), Vec::new());
+        for (train_k, test_k) in data.grouped_kfold(opts.folds, opts.seed)? {
+            let f = Forest::fit(&data, &train_k, &params)?;
+            for &i in &test_k {
+                let q = f.predict_proba(data.features.row(i).as_slice().unwrap_or(&[]))?;
+                t.push(data.labels[i]);
+                p.push(crate::model::forest::argmax(&q));
+                pr.push(q);
+            }
+        }
+        Some(Scores::compute(
+            data.class_names.clone(),
+            &t,
+            &p,
+            Some(&pr),
+        )?)
+    } else {
+        None
+    };
     let mut test_groups: Vec<String> = test_idx.iter().map(|&i| data.groups[i].clone()).collect();
     test_groups.dedup();
     let all: Vec<usize> = (0..data.len()).collect();
@@ -133,6 +158,7 @@ pub fn train(
         heldout,
         importances: importances.clone(),
         oob_accuracy: forest.oob_accuracy(),
+        cross_validated,
     };
     let training = serde_json::json!({
         "recordings": n_groups,
@@ -142,6 +168,8 @@ pub fn train(
         "seed": opts.seed,
         "heldout": &report.heldout,
         "heldout_recordings": &report.test_recordings,
+        "cross_validated": &report.cross_validated,
+        "folds": opts.folds,
         "forest": &params,
         "fitted_on": "all labelled recordings (held-out scores from a forest fitted without the held-out recordings)",
     });
