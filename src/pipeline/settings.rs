@@ -47,6 +47,11 @@ pub struct DetectSettings {
     pub noise_smoothing: f64,
     /// Tracker.
     pub tracker: TrackerParams,
+    /// Confirmed tracks shorter than this, s, ...
+    pub weak_track_max_s: f64,
+    /// ... whose mean SNR is less than this many dB above the CFAR threshold are dropped
+    /// (what M-of-N confirmation lets through from noise).
+    pub weak_track_margin_db: f64,
 }
 
 impl Default for DetectSettings {
@@ -81,6 +86,8 @@ impl Default for DetectSettings {
                 velocity_gain: 0.0,
                 ..TrackerParams::default()
             },
+            weak_track_max_s: 0.6,
+            weak_track_margin_db: 1.0,
         }
     }
 }
@@ -148,6 +155,15 @@ impl DetectSettings {
                 format!(
                     "noise smoothing {}: expected 0 < x <= 1",
                     self.noise_smoothing
+                )
+            },
+        )?;
+        ensure(
+            self.weak_track_max_s >= 0.0 && self.weak_track_margin_db.is_finite(),
+            || {
+                format!(
+                    "weak-track rule {} s / {} dB: expected a duration >= 0 and a finite margin",
+                    self.weak_track_max_s, self.weak_track_margin_db
                 )
             },
         )?;

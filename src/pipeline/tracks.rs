@@ -203,13 +203,36 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
         }
     }
     Ok(TrackRun {
-        tracks: tracker.finish(),
+        tracks: drop_weak_short(tracker.finish(), s)?,
         cpis,
         cpi_s: m as f64 * p.chirp_interval_s,
         cfar_detections: n_cfar,
         notch_detections: n_notch,
         cpi_chirps: m,
     })
+}
+
+/// Drops the confirmed tracks that M-of-N lets through from noise: shorter than
+/// `weak_track_max_s` and with a mean SNR less than `weak_track_margin_db` above the CFAR
+/// threshold multiplier of a full training window (10 log10 alpha). Ids are renumbered in
+/// start order.
+fn drop_weak_short(tracks: Vec<Track>, s: &DetectSettings) -> Result<Vec<Track>> {
+    let n = s.cfar.full_count();
+    let alpha = match s.cfar.kind {
+        crate::detect::CfarKind::CellAveraging => crate::detect::ca_alpha(n, s.cfar.pfa)?,
+        crate::detect::CfarKind::OrderedStatistic { rank_fraction } => {
+            crate::detect::os_alpha(n, crate::detect::os_rank(n, rank_fraction), s.cfar.pfa)?
+        }
+    };
+    let floor_db = 10.0 * alpha.log10() + s.weak_track_margin_db;
+    let mut kept: Vec<Track> = tracks
+        .into_iter()
+        .filter(|t| t.duration_s() >= s.weak_track_max_s || t.mean_snr_db() >= floor_db)
+        .collect();
+    for (i, t) in kept.iter_mut().enumerate() {
+        t.id = i;
+    }
+    Ok(kept)
 }
 
 /// True when detection `d` lies within 1.5 cells of a detection of `dets`.
