@@ -1155,6 +1155,9 @@ fn bad_model_files_are_refused() {
     swapped["feature_names"][1] = names[0].clone();
     let mut shorter = base.clone();
     shorter["feature_names"].as_array_mut().unwrap().pop();
+    // A feature setting this build does not know (it would be silently dropped).
+    let mut unknown_setting = base.clone();
+    unknown_setting["feature_settings"]["detect"]["mystery_knob"] = Value::from(1);
 
     let files = [
         write(dir, "not-a-model.json", "{\"a\": 1}\n"),
@@ -1164,6 +1167,7 @@ fn bad_model_files_are_refused() {
         write(dir, "renamed-feature.json", &renamed.to_string()),
         write(dir, "swapped-features.json", &swapped.to_string()),
         write(dir, "shorter-features.json", &shorter.to_string()),
+        write(dir, "unknown-setting.json", &unknown_setting.to_string()),
     ];
     for f in &files {
         let name = f.file_name().unwrap().to_str().unwrap();

@@ -208,8 +208,18 @@ impl Classifier {
                     format!("model's feature settings do not fit this build: {e}"),
                 )
             })?;
+        // A model carrying a setting this build does not know (serde would silently drop
+        // it, and the features would not be made as the model expects) is refused.
+        let understood =
+            serde_json::to_value(&settings).map_err(|e| Error::Invalid(e.to_string()))?;
+        if let Some(key) = unknown_key(&model.feature_settings, &understood, "") {
+            return Err(Error::format(
+                &origin,
+                format!("model's feature setting '{key}' is unknown to this build"),
+            ));
+        }
         model
-            .check_compatible(&names::names(), &model.feature_settings)
+            .check_compatible(&names::names(), &understood)
             .map_err(|e| Error::format(&origin, e.to_string()))?;
         Ok(Classifier {
             model,
@@ -247,6 +257,24 @@ impl Classifier {
             probabilities: self.model.class_names.iter().cloned().zip(p).collect(),
         })
     }
+}
+
+/// The first key (dotted path) of `have` that `known` lacks; values are not compared.
+fn unknown_key(have: &serde_json::Value, known: &serde_json::Value, path: &str) -> Option<String> {
+    let (serde_json::Value::Object(h), serde_json::Value::Object(k)) = (have, known) else {
+        return None;
+    };
+    h.iter().find_map(|(key, v)| {
+        let p = if path.is_empty() {
+            key.clone()
+        } else {
+            format!("{path}.{key}")
+        };
+        match k.get(key) {
+            None => Some(p),
+            Some(kv) => unknown_key(v, kv, &p),
+        }
+    })
 }
 
 /// One track's classification.
