@@ -82,9 +82,14 @@ impl Ctx {
         self.range_start + k as f64 * self.cell
     }
 
-    /// Coherent gain N * 256 of the range FFT and a 256-chirp Doppler FFT (linear).
+    /// Coherent gain of the truth SNRs (linear): N * 256 for FMCW (the range FFT and a
+    /// 256-chirp Doppler FFT); 256 for range profiles, whose cells are already range-compressed
+    /// (a scatterer's energy sits in one cell, no range FFT adds to it).
     pub fn coherent_gain(&self) -> f64 {
-        (self.n * TRUTH_CPI_CHIRPS) as f64
+        match self.waveform {
+            Waveform::FmcwBeat => (self.n * TRUTH_CPI_CHIRPS) as f64,
+            Waveform::RangeProfile => TRUTH_CPI_CHIRPS as f64,
+        }
     }
 
     /// Adds coefficient `c` (noise units) at centre range `r` to one chirp `sig` (N samples).
