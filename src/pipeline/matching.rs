@@ -31,24 +31,46 @@ pub fn matches(track: &TrackSpan, ann: &Annotation, p: &RadarParams) -> bool {
     time_ok && r >= ann.range_min_m - cell && r <= ann.range_max_m + cell
 }
 
-/// For each track, the annotation it matches (the one with the largest time overlap when
-/// several do), or `None`.
+/// For each track, the annotation it matches, or `None`. When several match, the one with
+/// the largest time overlap wins; overlaps within one chirp of each other count as equal,
+/// and then the most specific range window wins: the smallest distance from the track's
+/// median range to the window's farther edge (a rotorcraft crossing a vegetation patch
+/// matches both; its own, narrower window sits closer around it). Remaining ties go to
+/// the first annotation.
 pub fn match_tracks(
     tracks: &[TrackSpan],
     anns: &[Annotation],
     p: &RadarParams,
 ) -> Vec<Option<usize>> {
+    let t_chirp = p.chirp_interval_s;
     tracks
         .iter()
         .map(|t| {
-            anns.iter()
-                .enumerate()
-                .filter(|(_, a)| matches(t, a, p))
-                .max_by(|(_, a), (_, b)| {
-                    let ov = |x: &Annotation| t.end_s.min(x.end_s(p)) - t.start_s.max(x.start_s(p));
-                    ov(a).total_cmp(&ov(b))
-                })
-                .map(|(i, _)| i)
+            let ov = |x: &Annotation| t.end_s.min(x.end_s(p)) - t.start_s.max(x.start_s(p));
+            let reach = |x: &Annotation| {
+                (t.median_range_m - x.range_min_m)
+                    .abs()
+                    .max((x.range_max_m - t.median_range_m).abs())
+            };
+            let mut best: Option<usize> = None;
+            for (i, a) in anns.iter().enumerate() {
+                if !matches(t, a, p) {
+                    continue;
+                }
+                best = match best {
+                    None => Some(i),
+                    Some(b) => {
+                        let (oa, ob) = (ov(a), ov(&anns[b]));
+                        let better = if (oa - ob).abs() > t_chirp {
+                            oa > ob
+                        } else {
+                            reach(a) < reach(&anns[b])
+                        };
+                        Some(if better { i } else { b })
+                    }
+                };
+            }
+            best
         })
         .collect()
 }
@@ -103,5 +125,15 @@ mod tests {
         // Overlaps 0.6 s with the first and 0.9 s with the second: the second wins.
         assert_eq!(match_tracks(&[t(0.9, 1.9, 55.0)], &both, &p), vec![Some(1)]);
         assert_eq!(match_tracks(&[t(5.0, 6.0, 55.0)], &both, &p), vec![None]);
+        // Equal overlap: a narrow window around the track beats a wide patch holding it,
+        // whichever comes first.
+        let patch = ann(0, 3000, 40.0, 70.0);
+        let own = ann(0, 3000, 52.0, 58.0);
+        let tr = [t(0.5, 2.5, 55.0)];
+        assert_eq!(
+            match_tracks(&tr, &[patch.clone(), own.clone()], &p),
+            vec![Some(1)]
+        );
+        assert_eq!(match_tracks(&tr, &[own, patch], &p), vec![Some(0)]);
     }
 }
