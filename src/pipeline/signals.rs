@@ -3,7 +3,8 @@
 //! CPIs), plus a noise-reference signal a few cells away. For FMCW the range gate is the
 //! windowed DFT of the chirp evaluated at the track's *fractional* beat bin, so a mover
 //! crossing cells keeps its amplitude and phase continuous (no straddle loss, no phase jump
-//! at a cell change); range profiles use the nearest cell. Not cancelled: the feature stage
+//! at a cell change); range profiles take a weighted sum of the cells
+//! around the track's fractional cell (see `RANGE_PROFILE_REACH`). Not cancelled: the feature stage
 //! removes clutter with a narrow notch. Streams the recording again; memory holds only the
 //! tracks' own samples (each capped at `max_chirps`).
 
@@ -31,6 +32,26 @@ pub struct TrackSignal {
     pub reference2: Vec<Complex32>,
 }
 
+/// Range profiles: the gate is a weighted sum of cells around the fractional cell kappa,
+/// weight `clamp(2 - |k - kappa|, 0, 1)` (flat over kappa +/- 1, tapering to 0 at +/- 2). A
+/// scatterer's energy sits in one cell and jumps whole to the next as it crosses a cell edge
+/// (or as a swaying mast dithers across one); a one-cell gate would switch on and off with
+/// it, and a gate of whole cells that follows the track's range would swap cells in and out
+/// of a clutter patch in steps; both spread over every Doppler bin. With these weights the
+/// jump between two cells inside the flat top changes nothing, and the weights move
+/// continuously with kappa (three cells' noise, shared by the reference gates).
+const RANGE_PROFILE_REACH: f64 = 2.0;
+
+/// Noise power of the range gate relative to a point scatterer's power in it: 1 for FMCW
+/// (one fractional FFT bin); for range profiles the mean over the fractional position of
+/// the sum of the squared weights, 2 + 2/3 (the scatterer sits in one cell of weight 1).
+pub fn gate_noise_gain(waveform: Waveform) -> f64 {
+    match waveform {
+        Waveform::FmcwBeat => 1.0,
+        Waveform::RangeProfile => 8.0 / 3.0,
+    }
+}
+
 /// Evaluates one chirp at a fractional range bin.
 struct RangeGate {
     window: Vec<f32>,
@@ -48,16 +69,28 @@ impl RangeGate {
         }
     }
     /// FMCW: sum_n w[n] x[n] exp(-j 2 pi kappa n / N) (the range FFT's bin kappa, for
-    /// fractional kappa); range profile: the nearest cell.
+    /// fractional kappa, phase referred to the chirp's centre); range profile: the weighted sum
+    /// of the cells around kappa (`RANGE_PROFILE_REACH`).
     fn at(&self, chirp: &[Complex32], kappa: f64) -> Complex32 {
         if !self.fmcw {
-            let k = kappa.round().clamp(0.0, (self.cells - 1) as f64) as usize;
-            return chirp[k];
+            let top = (self.cells - 1) as f64;
+            let lo = (kappa - RANGE_PROFILE_REACH).ceil().clamp(0.0, top) as usize;
+            let hi = (kappa + RANGE_PROFILE_REACH).floor().clamp(0.0, top) as usize;
+            let mut acc = Complex32::new(0.0, 0.0);
+            for (k, &x) in chirp.iter().enumerate().take(hi + 1).skip(lo) {
+                let w = (RANGE_PROFILE_REACH - (k as f64 - kappa).abs()).clamp(0.0, 1.0);
+                acc += x * w as f32;
+            }
+            return acc;
         }
         let n = chirp.len() as f64;
         let step = -2.0 * std::f64::consts::PI * kappa / n;
         let rot = (step.cos(), step.sin());
-        let (mut zr, mut zi) = (1.0f64, 0.0f64);
+        // Index counted from the chirp's centre, so the gate's phase does not depend on how
+        // far kappa sits from the scatterer's bin (a symmetric window's transform is real):
+        // jitter in the track's range then moves only the amplitude, not the phase.
+        let start = -step * (n - 1.0) / 2.0;
+        let (mut zr, mut zi) = (start.cos(), start.sin());
         let (mut ar, mut ai) = (0.0f64, 0.0f64);
         for (x, &w) in chirp.iter().zip(&self.window) {
             let (xr, xi) = (x.re as f64 * w as f64, x.im as f64 * w as f64);
