@@ -110,10 +110,24 @@ pub struct Extractor {
     flash_len: usize,
     flash_rate: f64,
     decim: usize,
+    gate_noise_gain: f64,
 }
 
 /// How far below the blade level the spectrum's edge is read, dB (see `extract`).
 const REL_DB: f64 = 15.0;
+
+/// Band edges of the band-power features, m/s from the body line: within `BAND_BODY` is
+/// the body; from there to `BAND_FAST` wings, limbs and foliage; beyond it blade speeds
+/// (tips of small rotors run 40-80 m/s; wing tips of small birds reach about 15 m/s).
+const BAND_BODY: f64 = 2.0;
+const BAND_FAST: f64 = 20.0;
+/// Nearest offset from the body (and clutter) line at which the blade level is sought, m/s.
+const PEAK_SKIRT_MPS: f64 = 8.0;
+/// Least excess over the reference noise level at which the extent is read, dB (the
+/// reference is another range gate; its level is measured over thousands of bins).
+const EXTENT_FLOOR_DB: f64 = 0.1;
+/// Chirps of the CPI the band SNRs are referred to (as the "clear" SNRs are).
+const BAND_CPI: f64 = 256.0;
 
 /// Power-of-two sample count nearest to `seconds * rate`, clamped to [lo, hi].
 fn pow2_len(seconds: f64, rate: f64, lo: usize, hi: usize) -> usize {
@@ -155,7 +169,18 @@ impl Extractor {
             flash_len,
             flash_rate,
             decim,
+            gate_noise_gain: 1.0,
         })
+    }
+
+    /// Declares that the range gate the signals come from carries `g` times the noise of
+    /// one range cell relative to a point scatterer's power (1, the default, for a single
+    /// cell or FFT bin). The band SNRs are then referred to one cell, so they read the same
+    /// on radars whose gates differ.
+    pub fn set_gate_noise_gain(&mut self, g: f64) {
+        if g.is_finite() && g > 0.0 {
+            self.gate_noise_gain = g;
+        }
     }
 
     /// The STFT plan used for the micro-Doppler spectrogram.
@@ -272,10 +297,19 @@ impl Extractor {
         // the spectrum (sinusoidal FM piles its energy up at the extremes; Chen 2011).
         let long_mean = self.long_mean(&z)?;
         let kin = *kin;
+        let band_noise = match &long_mean {
+            Some((lm, _)) => self.band_powers(lm, &references, kin.body_velocity_mps, &mut v)?,
+            None => None,
+        };
         let extent = match &long_mean {
             Some((lm, lframes)) => {
                 let nl = lm.len();
-                let noise_l = noise * nfft as f64 / nl as f64;
+                // The reference's own long-window level where there is one (a mean over
+                // its fast band, see `band_powers`); else the short spectrogram's.
+                let (noise_l, floor_db) = match band_noise {
+                    Some(n) => (n, EXTENT_FLOOR_DB),
+                    None => (noise * nfft as f64 / nl as f64, 0.5),
+                };
                 let dvl = self.prf / nl as f64 * self.lambda / 2.0;
                 let vl = |i: usize| {
                     // natural order: bins above nl/2 are negative
@@ -293,16 +327,19 @@ impl Extractor {
                         sum / (2 * w + 1) as f64
                     })
                     .collect();
-                // The blade level: the strongest smoothed value more than 2 m/s (and 8 bins)
-                // from the body, clear of the body line and its skirt.
-                let skirt = (2.0f64).max(8.0 * dvl);
+                // The blade level: the strongest smoothed value more than PEAK_SKIRT_MPS (and
+                // 8 bins) from the body and the clutter line, clear of a strong body line's
+                // skirt (which at fine resolution reaches a few m/s: body flutter, range
+                // migration).
+                let skirt = PEAK_SKIRT_MPS.max(8.0 * dvl);
                 let v_clutter = -kin.body_velocity_mps;
                 let peak = (0..nl)
                     .filter(|&d| vl(d).abs() > skirt && (vl(d) - v_clutter).abs() > skirt)
                     .map(|d| smooth[d])
                     .fold(0.0, f64::max);
                 let thr = (noise_l
-                    * (1.0 + 5.0 / ((lframes * (2 * w + 1)) as f64).sqrt()).max(10f64.powf(0.05)))
+                    * (1.0 + 5.0 / ((lframes * (2 * w + 1)) as f64).sqrt())
+                        .max(10f64.powf(floor_db / 10.0)))
                 .max(peak * 10f64.powf(-REL_DB / 10.0));
                 (0..nl)
                     .filter(|&d| smooth[d] > thr)
@@ -411,6 +448,93 @@ impl Extractor {
             .filter(|(f, _)| *f >= lo && *f <= hi)
             .collect();
         peak_over_median(&band)
+    }
+
+    /// Band-power features: the long-window mean spectrum `lm` of the prepared signal,
+    /// less the noise, summed over velocity bands relative to the body line. The noise per
+    /// bin is the mean over the fast band of a reference gate's long-window mean spectrum
+    /// (a mean, not a median: the median of a mean of F exponentials sits about 1/(3F)
+    /// low, which over thousands of bins would read as a few dB of power). The sums over
+    /// the noise summed over every bin are band powers over the noise power per sample
+    /// (Parseval; the window's factor cancels), so they need no per-bin SNR: a blade return
+    /// spread thin over tens of kHz of Doppler still adds up. Bins within `BAND_BODY` of the
+    /// body line or of the clutter line (-v_body after demodulation) are left out. Returns
+    /// the noise level per long-window bin it used (`None` without a usable reference).
+    fn band_powers(
+        &mut self,
+        lm: &[f64],
+        references: &[Vec<Complex32>],
+        body_velocity_mps: f64,
+        v: &mut [f64],
+    ) -> Result<Option<f64>> {
+        let nl = lm.len();
+        let dvl = self.prf / nl as f64 * self.lambda / 2.0;
+        let vmax = self.lambda / 4.0 * self.prf;
+        let fast_edge = BAND_FAST.min(0.6 * vmax);
+        let v_clutter = -body_velocity_mps;
+        // Band of every bin: 0 body or clutter line, 1 slow, 2 fast.
+        let band: Vec<u8> = (0..nl)
+            .map(|i| {
+                let k = if i <= nl / 2 {
+                    i as f64
+                } else {
+                    i as f64 - nl as f64
+                };
+                let vel = k * dvl;
+                if vel.abs() <= BAND_BODY || (vel - v_clutter).abs() <= BAND_BODY {
+                    0
+                } else if vel.abs() < fast_edge {
+                    1
+                } else {
+                    2
+                }
+            })
+            .collect();
+        let n_fast = band.iter().filter(|&&b| b == 2).count();
+        let n_slow = band.iter().filter(|&&b| b == 1).count();
+        if n_fast == 0 {
+            return Ok(None);
+        }
+        let mut levels = Vec::new();
+        for r in references {
+            let zref = self.prepare(r, 0.0);
+            if let Some((rm, _)) = self.long_mean(&zref)? {
+                let sum: f64 = rm
+                    .iter()
+                    .zip(&band)
+                    .filter(|(_, &b)| b == 2)
+                    .map(|(p, _)| p)
+                    .sum();
+                levels.push(sum / n_fast as f64);
+            }
+        }
+        // The two references agree when both hold only noise; when one holds something
+        // (another target, clutter leaking through), the quieter is taken.
+        let noise_bin = match levels.as_slice() {
+            [] => return Ok(None),
+            [a] => *a,
+            [a, b, ..] if a.max(*b) <= 1.05 * a.min(*b) => 0.5 * (a + b),
+            [a, b, ..] => a.min(*b),
+        };
+        if !(noise_bin > 0.0) {
+            return Ok(None);
+        }
+        let (mut slow, mut fast) = (0.0f64, 0.0f64);
+        for (&p, &b) in lm.iter().zip(&band) {
+            match b {
+                1 => slow += p,
+                2 => fast += p,
+                _ => {}
+            }
+        }
+        let total_noise = noise_bin * nl as f64;
+        let gain = self.gate_noise_gain;
+        let to_db = |excess: f64| {
+            (10.0 * (excess / total_noise * BAND_CPI * gain).max(1e-30).log10()).max(-5.0)
+        };
+        v[F::FastBandSnr as usize] = to_db(fast - noise_bin * n_fast as f64);
+        v[F::SlowBandSnr as usize] = to_db(slow - noise_bin * n_slow as f64);
+        Ok(Some(noise_bin))
     }
 
     /// Mean over frames of the long-window spectrogram (natural bin order) and the frame

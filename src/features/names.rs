@@ -54,6 +54,8 @@ features! {
     CadenceHighHz = "cadence_high_hz", "Hz", "cadence-velocity diagram: strongest cadence above 30 Hz (rotor band)";
     CadenceHighStrength = "cadence_high_strength_db", "dB", "that peak over the median of the summed cadence spectrum";
     NotchShare = "notch_share", "1", "share of the track's CPIs found only by the micro-Doppler detector (body in the canceller notch)";
+    FastBandSnr = "fast_band_snr_db", "dB", "power more than 20 m/s from the body line (blade speeds), over the noise of a reference gate, referred to a 256-chirp CPI (floor -5 dB)";
+    SlowBandSnr = "slow_band_snr_db", "dB", "the same for 2-20 m/s from the body line (wings, limbs, foliage)";
 }
 
 /// Number of features.

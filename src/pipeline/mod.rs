@@ -183,6 +183,7 @@ pub fn analyse(
     let mut results: Vec<(Vec<f64>, RotorEstimates)> = vec![(Vec::new(), none); run.tracks.len()];
     if with_features && !run.tracks.is_empty() {
         let mut ex = Extractor::new(&settings.features, p.prf_hz(), p.wavelength_m())?;
+        ex.set_gate_noise_gain(signals::gate_noise_gain(p.waveform()));
         let max_chirps = (settings.features.max_track_s / p.chirp_interval_s) as usize;
         track_signals(
             meta,
