@@ -32,7 +32,7 @@ RADARS = {
         title="X-band range-profile surveillance radar",
         table=dict(waveform="range-profile", carrier_hz=9.4e9, samples_per_chirp=64,
                    chirp_interval_s=100e-6, range_cell_m=3.0, range_start_m=30.0,
-                   transmit_power_w=2.0, tx_gain_dbi=28.0, rx_gain_dbi=28.0,
+                   transmit_power_w=50.0, tx_gain_dbi=28.0, rx_gain_dbi=28.0,
                    noise_figure_db=4.0, losses_db=3.0, datatype="ci16_le"),
         duration=2.0, cover=(45.0, 210.0), runs=36, tip=(40.0, 78.0)),
 }
@@ -162,15 +162,44 @@ def bird(rng, radar, oid, spec, mkind, r, faint):
     return o
 
 
-def clutter(rng, radar, run_kind, n):
+def range_span(obj, dur):
+    """The range interval a target's motion covers during the run, m."""
+    m = obj["motion"]
+    norm = lambda p: math.sqrt(sum(x * x for x in p))
+    if m["type"] == "hover":
+        r = norm(m["position"])
+        return (r - 1.0, r + 1.0)
+    rs = [norm([m["start"][i] + m["velocity"][i] * t for i in range(3)])
+          for t in (0.0, dur / 4, dur / 2, 3 * dur / 4, dur)]
+    return (min(rs), max(rs))
+
+
+def clear_of(r0, r1, busy, margin):
+    """True when [r0, r1] keeps `margin` metres from every busy interval."""
+    return all(r1 < a - margin or r0 > b + margin for a, b in busy)
+
+
+def draw_clear(rng, lo, hi, width, busy, margin):
+    """A start range in [lo, hi - width] whose interval is clear of the busy ones (so each
+    label's range window holds one thing); falls back to any range after 200 tries."""
+    for _ in range(200):
+        r0 = rng.uniform(lo, hi - width)
+        if clear_of(r0, r0 + width, busy, margin):
+            return r0
+    return rng.uniform(lo, hi - width)
+
+
+def clutter(rng, radar, run_kind, n, busy=()):
     """Vegetation, swaying masts and stationary returns; strengths kept below clipping
     (per-sample SNR <= 34 dB for patches and masts, <= 36 dB for fixed returns, so
-    that a few of them together stay below ci16 full scale, 49.5 dB above the noise)."""
+    that a few of them together stay below ci16 full scale, 49.5 dB above the noise).
+    Patches and masts keep clear of the targets' ranges (`busy`)."""
     lo, hi = radar["cover"]
     cell = cell_m(radar)
+    margin = 3 * cell + 2.0
     out = []
     if run_kind == "clutter" or rng.random() < 0.6:
-        r0 = rng.uniform(lo, hi - 6 * cell)
+        r0 = draw_clear(rng, lo, hi, 6 * cell, busy, margin)
         rcs = rng.uniform(-25.0, 0.0)
         while snr_db(radar, rcs, r0) > 34.0:
             rcs -= 3.0
@@ -178,7 +207,7 @@ def clutter(rng, radar, run_kind, n):
                         range_max_m=round(r0 + cell * rng.randint(3, 6), 2),
                         rcs_dbsm_per_cell=round(rcs, 1), wind_mph=round(rng.uniform(2.0, 35.0), 1)))
     if run_kind == "clutter" or rng.random() < 0.4:
-        r = rng.uniform(lo, hi)
+        r = draw_clear(rng, lo, hi, 0.0, busy, margin)
         rcs = rng.uniform(-15.0, 5.0)
         while snr_db(radar, rcs, r) > 34.0:
             rcs -= 3.0
@@ -259,7 +288,8 @@ def main():
                 bm = MOTIONS[(i + 1) % 4] if kind == "mixed" else mkind
                 objs.append(bird(rng, radar, "bird-1", spec, bm, r, faint))
                 desc.append("%s %s at %.0f m" % (bm, spec[0], r))
-            objs += clutter(rng, radar, kind, i)
+            busy = [range_span(o, radar["duration"]) for o in objs]
+            objs += clutter(rng, radar, kind, i, busy)
             if kind == "clutter":
                 desc.append("vegetation, mast and fixed clutter only")
             count += 1
