@@ -516,7 +516,7 @@ impl Extractor {
             [a, b, ..] if a.max(*b) <= 1.05 * a.min(*b) => 0.5 * (a + b),
             [a, b, ..] => a.min(*b),
         };
-        if !(noise_bin > 0.0) {
+        if noise_bin.is_nan() || noise_bin <= 0.0 {
             return Ok(None);
         }
         let (mut slow, mut fast) = (0.0f64, 0.0f64);
