@@ -1,0 +1,200 @@
+//! The audit: picks the tracks a person should look at — misclassified (against the
+//! annotation they match, INTERFACE.md §1), low-confidence, or doubtful between bird and
+//! rotorcraft — and draws each one's pictures. `report::audit` writes the HTML page.
+
+use std::collections::BTreeMap;
+use std::path::Path;
+
+use super::classify::{Classifier, Prediction};
+use super::pictures::{range_doppler, signals_of, track_picture, PictureKind};
+use super::{match_tracks, RecordingAnalysis};
+use crate::error::Result;
+use crate::report::plot::write_png;
+
+/// What makes a track doubtful.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct AuditParams {
+    /// Tracks whose confidence is below this are listed.
+    pub low_confidence: f64,
+    /// Tracks whose bird and rotorcraft probabilities are both at least this are listed.
+    pub bird_rotor_doubt: f64,
+    /// At most this many tracks get pictures (the most doubtful first); the rest are
+    /// listed without.
+    pub max_pictures: usize,
+}
+
+impl Default for AuditParams {
+    fn default() -> Self {
+        AuditParams {
+            low_confidence: 0.6,
+            bird_rotor_doubt: 0.2,
+            max_pictures: 150,
+        }
+    }
+}
+
+/// One listed track.
+#[derive(Debug, Clone)]
+pub struct AuditEntry {
+    pub recording: String,
+    pub track_id: usize,
+    pub start_s: f64,
+    pub end_s: f64,
+    pub range_m: f64,
+    pub radial_velocity_mps: f64,
+    pub snr_db: f64,
+    pub hovering: bool,
+    pub blade_flash_hz: Option<f64>,
+    pub tip_speed_mps: Option<f64>,
+    /// The matched annotation's label and target id, if any.
+    pub truth: Option<String>,
+    pub target_id: Option<String>,
+    pub prediction: Prediction,
+    pub reasons: Vec<String>,
+    /// Picture files, relative to the audit directory, with their kind.
+    pub pictures: Vec<(PictureKind, String)>,
+    /// Doubt score: misclassified first, then by lowest confidence.
+    pub score: f64,
+}
+
+/// The audit's result.
+#[derive(Debug, Clone, Default)]
+pub struct Audit {
+    pub model: String,
+    pub recordings: usize,
+    pub tracks: usize,
+    pub matched: usize,
+    /// Track-level counts (true label, predicted) over matched tracks.
+    pub confusion: BTreeMap<(String, String), usize>,
+    pub entries: Vec<AuditEntry>,
+}
+
+/// File-name-safe stem of a recording path.
+fn stem(path: &Path) -> String {
+    let s = path
+        .file_name()
+        .map(|s| {
+            s.to_string_lossy()
+                .trim_end_matches(".sigmf-meta")
+                .to_string()
+        })
+        .unwrap_or_else(|| "recording".into());
+    s.chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect()
+}
+
+/// Runs the audit over analysed recordings (with features), writing pictures into
+/// `dir/img/`. `channel` is the channel the analyses read.
+pub fn audit(
+    analyses: &[RecordingAnalysis],
+    clf: &Classifier,
+    params: &AuditParams,
+    channel: usize,
+    dir: &Path,
+) -> Result<Audit> {
+    let mut out = Audit {
+        model: clf.name.clone(),
+        recordings: analyses.len(),
+        ..Default::default()
+    };
+    let img = dir.join("img");
+    std::fs::create_dir_all(&img).map_err(|e| crate::Error::io(&img, e))?;
+    let mut picked: Vec<(usize, usize, AuditEntry)> = Vec::new();
+    for (ai, a) in analyses.iter().enumerate() {
+        let spans: Vec<_> = a.tracks.iter().map(|t| t.span()).collect();
+        let matched = match_tracks(&spans, &a.meta.annotations, &a.meta.params);
+        for (ti, (t, m)) in a.tracks.iter().zip(&matched).enumerate() {
+            out.tracks += 1;
+            let p = clf.predict(&t.features, 0.0)?;
+            let ann = m.map(|i| &a.meta.annotations[i]);
+            let mut reasons = Vec::new();
+            let mut score = 1.0 - p.confidence;
+            if let Some(ann) = ann {
+                out.matched += 1;
+                *out.confusion
+                    .entry((ann.label.clone(), p.label.clone()))
+                    .or_insert(0) += 1;
+                if ann.label != p.label {
+                    reasons.push(format!("misclassified: labelled {}", ann.label));
+                    score += 2.0;
+                }
+            }
+            if p.confidence < params.low_confidence {
+                reasons.push(format!("low confidence ({:.2})", p.confidence));
+            }
+            let pb = p.probabilities.get("bird").copied().unwrap_or(0.0);
+            let pr = p.probabilities.get("rotorcraft").copied().unwrap_or(0.0);
+            if pb >= params.bird_rotor_doubt && pr >= params.bird_rotor_doubt {
+                reasons.push(format!("bird or rotorcraft? ({pb:.2} / {pr:.2})"));
+                score += 1.0;
+            }
+            if reasons.is_empty() {
+                continue;
+            }
+            picked.push((
+                ai,
+                ti,
+                AuditEntry {
+                    recording: a.meta.meta_path.display().to_string(),
+                    track_id: t.track.id,
+                    start_s: t.start_s,
+                    end_s: t.end_s,
+                    range_m: t.track.median_range_m(),
+                    radial_velocity_mps: t.kinematics.body_velocity_mps,
+                    snr_db: t.track.mean_snr_db(),
+                    hovering: t.hovering(),
+                    blade_flash_hz: t.rotor.blade_flash_hz,
+                    tip_speed_mps: t.rotor.tip_speed_mps,
+                    truth: ann.map(|x| x.label.clone()),
+                    target_id: ann.and_then(|x| x.target_id.clone()),
+                    prediction: p,
+                    reasons,
+                    pictures: Vec::new(),
+                    score,
+                },
+            ));
+        }
+    }
+    picked.sort_by(|x, y| y.2.score.total_cmp(&x.2.score));
+    // Pictures for the most doubtful, one signal pass per recording.
+    let with_pictures = picked.len().min(params.max_pictures);
+    let mut by_recording: BTreeMap<usize, Vec<usize>> = BTreeMap::new();
+    for (k, (ai, _, _)) in picked.iter().take(with_pictures).enumerate() {
+        by_recording.entry(*ai).or_default().push(k);
+    }
+    for (ai, ks) in by_recording {
+        let a = &analyses[ai];
+        let tracks: Vec<_> = ks
+            .iter()
+            .map(|&k| a.tracks[picked[k].1].track.clone())
+            .collect();
+        let sigs = signals_of(&a.meta, channel, &clf.settings, &tracks)?;
+        let name = stem(&a.meta.meta_path);
+        for (&k, sig) in ks.iter().zip(&sigs) {
+            let entry = &mut picked[k].2;
+            let label = format!("TRACK {}", entry.track_id);
+            for kind in [PictureKind::Spectrogram, PictureKind::Cadence] {
+                if let Ok(h) = track_picture(&a.meta, &clf.settings, sig, kind, &label) {
+                    let file = format!("img/{name}-t{}-{}.png", entry.track_id, kind.name());
+                    write_png(&h, &dir.join(&file))?;
+                    entry.pictures.push((kind, file));
+                }
+            }
+            let mid = 0.5 * (entry.start_s + entry.end_s);
+            if let Ok(h) = range_doppler(&a.meta, channel, &clf.settings, mid) {
+                let file = format!("img/{name}-t{}-range-doppler.png", entry.track_id);
+                write_png(&h, &dir.join(&file))?;
+                entry.pictures.push((PictureKind::RangeDoppler, file));
+            }
+        }
+    }
+    out.entries = picked.into_iter().map(|(_, _, e)| e).collect();
+    Ok(out)
+}
