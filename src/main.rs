@@ -122,6 +122,45 @@ enum Command {
         #[arg(long, value_enum, default_value_t = Format::Table)]
         format: Format,
     },
+    /// Write DIR/index.html: every misclassified, low-confidence or bird-vs-rotorcraft
+    /// doubtful track, with its spectrogram, cadence diagram and range-Doppler map.
+    Audit {
+        /// Recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
+        #[arg(required = true)]
+        inputs: Vec<PathBuf>,
+        #[command(flatten)]
+        model: ModelArgs,
+        /// Directory for index.html and img/ (created if missing).
+        #[arg(long)]
+        out: PathBuf,
+        /// Tracks under this confidence are listed.
+        #[arg(long, default_value_t = 0.6)]
+        low_confidence: f64,
+        /// Tracks whose bird and rotorcraft probabilities both reach this are listed.
+        #[arg(long, default_value_t = 0.2)]
+        doubt: f64,
+        /// At most this many tracks get pictures (most doubtful first).
+        #[arg(long, default_value_t = 150)]
+        max_pictures: usize,
+    },
+    /// Draw one picture as PNG: a CPI's range-Doppler map, or a track's spectrogram,
+    /// cepstrogram or cadence-velocity diagram.
+    Plot {
+        /// One recording: NAME.sigmf-meta, NAME.sigmf-data or NAME.
+        input: PathBuf,
+        /// What to draw.
+        #[arg(long, value_enum)]
+        kind: pipeline::pictures::PictureKind,
+        /// Track id (as `detect` prints); default: the strongest track. For range-doppler,
+        /// the CPI at the track's middle (default: the recording's middle).
+        #[arg(long)]
+        track: Option<usize>,
+        /// PNG file to write.
+        #[arg(long)]
+        out: PathBuf,
+        #[command(flatten)]
+        process: ProcessArgs,
+    },
 }
 
 /// Which model, and how to use it.
@@ -509,6 +548,103 @@ fn run(cli: Cli) -> Result<ExitCode> {
             };
             emit(&text)?;
             Ok(exit_code(failed))
+        }
+        Command::Audit {
+            inputs,
+            model,
+            out,
+            low_confidence,
+            doubt,
+            max_pictures,
+        } => {
+            let clf = model.load()?;
+            for (name, v) in [("--low-confidence", low_confidence), ("--doubt", doubt)] {
+                if !(0.0..=1.0).contains(&v) {
+                    anyhow::bail!("{name} {v}: expected a probability in 0..1");
+                }
+            }
+            let (analyses, failed) = analyse_all(&inputs, model.channel, &clf.settings, true)?;
+            let params = pipeline::audit::AuditParams {
+                low_confidence,
+                bird_rotor_doubt: doubt,
+                max_pictures,
+            };
+            std::fs::create_dir_all(&out).with_context(|| format!("creating {}", out.display()))?;
+            let a = pipeline::audit::audit(&analyses, &clf, &params, model.channel, &out)?;
+            let page = report::audit::to_html(&a, rotorsift::VERSION);
+            let index = out.join("index.html");
+            rotorsift::recording::write_atomic(&index, page.as_bytes())?;
+            eprintln!(
+                "rotorsift: {} of {} tracks listed in {}",
+                a.entries.len(),
+                a.tracks,
+                index.display()
+            );
+            Ok(exit_code(failed))
+        }
+        Command::Plot {
+            input,
+            kind,
+            track,
+            out,
+            process,
+        } => {
+            use pipeline::pictures::{self as pic, PictureKind};
+            let paths = resolve_inputs(std::slice::from_ref(&input))?;
+            if paths.len() != 1 {
+                anyhow::bail!(
+                    "{}: plot takes one recording, found {}",
+                    input.display(),
+                    paths.len()
+                );
+            }
+            let meta = RecordingMeta::open(&paths[0])?;
+            let settings = process.settings();
+            settings.detect.check()?;
+            let a = pipeline::analyse(&meta, process.channel, &settings, false)?;
+            let chosen = match track {
+                Some(id) => Some(a.tracks.iter().find(|t| t.track.id == id).ok_or_else(|| {
+                    anyhow::anyhow!(
+                        "{}: no track {id} (the recording has {} tracks; `rotorsift detect` lists them)",
+                        paths[0].display(),
+                        a.tracks.len()
+                    )
+                })?),
+                None => a
+                    .tracks
+                    .iter()
+                    .max_by(|x, y| x.track.mean_snr_db().total_cmp(&y.track.mean_snr_db())),
+            };
+            let h = if kind == PictureKind::RangeDoppler {
+                let centre = chosen
+                    .map(|t| 0.5 * (t.start_s + t.end_s))
+                    .unwrap_or(0.5 * meta.duration_s());
+                pic::range_doppler(&meta, process.channel, &settings, centre)?
+            } else {
+                let t = chosen.ok_or_else(|| {
+                    anyhow::anyhow!(
+                        "{}: no tracks to draw a {} of",
+                        paths[0].display(),
+                        kind.name()
+                    )
+                })?;
+                let sigs = pic::signals_of(
+                    &meta,
+                    process.channel,
+                    &settings,
+                    std::slice::from_ref(&t.track),
+                )?;
+                pic::track_picture(
+                    &meta,
+                    &settings,
+                    &sigs[0],
+                    kind,
+                    &format!("TRACK {}", t.track.id),
+                )?
+            };
+            report::plot::write_png(&h, &out)?;
+            eprintln!("rotorsift: {} written to {}", kind.name(), out.display());
+            Ok(ExitCode::SUCCESS)
         }
         Command::Detect {
             inputs,

@@ -23,8 +23,8 @@ use std::path::Path;
 use common::*;
 use serde_json::Value;
 
-const SUBCOMMANDS: [&str; 7] = [
-    "info", "simulate", "detect", "features", "train", "classify", "evaluate",
+const SUBCOMMANDS: [&str; 9] = [
+    "info", "simulate", "detect", "features", "train", "classify", "evaluate", "audit", "plot",
 ];
 
 // ---------------------------------------------------------------------------------------
@@ -42,7 +42,7 @@ fn help_names_subcommands_and_their_key_options() {
             "top-level --help lacks subcommand {s}:\n{top}"
         );
     }
-    let key_options: [(&str, &[&str]); 7] = [
+    let key_options: [(&str, &[&str]); 9] = [
         ("info", &["--format"]),
         ("simulate", &["--scene", "--out", "--seed"]),
         (
@@ -69,6 +69,8 @@ fn help_names_subcommands_and_their_key_options() {
         ),
         ("classify", &["--model", "--min-confidence", "--format"]),
         ("evaluate", &["--model", "--min-confidence", "--format"]),
+        ("audit", &["--model", "--out", "--low-confidence"]),
+        ("plot", &["--kind", "--track", "--out"]),
     ];
     for (sub, opts) in key_options {
         let o = run(&[sub, "--help"]);
@@ -1286,4 +1288,108 @@ fn features_keeps_old_file_when_every_input_is_refused() {
     assert_no_panic(&o);
     assert_eq!(o.status.code(), Some(1));
     assert_eq!(std::fs::read_to_string(&csv).unwrap(), "old contents\n");
+}
+
+// ---------------------------------------------------------------------------------------
+// Pictures and the audit page
+// ---------------------------------------------------------------------------------------
+
+/// PNG signature (ISO/IEC 15948, the PNG standard: the first eight bytes of every file)
+/// and the IHDR image size.
+fn png_size(path: &Path) -> (u32, u32) {
+    let b = std::fs::read(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+    assert_eq!(
+        &b[..8],
+        b"\x89PNG\r\n\x1a\n",
+        "{} is not a PNG",
+        path.display()
+    );
+    assert_eq!(&b[12..16], b"IHDR");
+    let be = |i: usize| u32::from_be_bytes([b[i], b[i + 1], b[i + 2], b[i + 3]]);
+    (be(16), be(20))
+}
+
+/// `plot` draws each kind as a PNG; an unknown track id and a missing recording are one
+/// error line each, and a failed plot leaves an existing file untouched.
+#[test]
+fn plot_writes_each_kind_and_refuses_bad_requests() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
+    let meta = simulate(dir, "hov", &hover_scene(""), "rec", None).remove(0);
+    let m = meta.to_str().unwrap();
+    for kind in ["range-doppler", "spectrogram", "cepstrogram", "cadence"] {
+        let out = dir.join(format!("{kind}.png"));
+        let o = run(&["plot", m, "--kind", kind, "--out", out.to_str().unwrap()]);
+        assert_no_panic(&o);
+        assert!(o.status.success(), "plot {kind}: {}", stderr(&o));
+        assert_eq!(png_size(&out), (960, 600), "{kind}");
+    }
+    let keep = dir.join("spectrogram.png");
+    let before = std::fs::read(&keep).unwrap();
+    let o = run(&[
+        "plot",
+        m,
+        "--kind",
+        "spectrogram",
+        "--track",
+        "999",
+        "--out",
+        keep.to_str().unwrap(),
+    ]);
+    assert_one_error(&o, 1, &["no track 999"]);
+    assert_eq!(
+        std::fs::read(&keep).unwrap(),
+        before,
+        "a failed plot changed the file"
+    );
+    let o = run(&[
+        "plot",
+        "/no/such",
+        "--kind",
+        "cadence",
+        "--out",
+        keep.to_str().unwrap(),
+    ]);
+    assert_one_error(&o, 1, &["/no/such"]);
+}
+
+/// `audit` writes DIR/index.html (INTERFACE.md §2) whose every picture exists; with a
+/// confidence threshold above 1 every track is listed.
+#[test]
+fn audit_writes_an_index_with_its_pictures() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
+    let meta = simulate(dir, "hov", &hover_scene(""), "rec", None).remove(0);
+    let out = dir.join("audit");
+    let o = run(&[
+        "audit",
+        meta.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--low-confidence",
+        "1.0",
+    ]);
+    assert_no_panic(&o);
+    assert!(o.status.success(), "audit: {}", stderr(&o));
+    let html = std::fs::read_to_string(out.join("index.html")).unwrap();
+    assert!(
+        html.starts_with("<!DOCTYPE html>") && html.contains("low confidence"),
+        "{html}"
+    );
+    let mut pictures = 0;
+    for part in html.split("src=\"").skip(1) {
+        let file = &part[..part.find('"').unwrap()];
+        assert_eq!(png_size(&out.join(file)), (960, 600), "{file}");
+        pictures += 1;
+    }
+    assert!(pictures >= 2, "no pictures in the audit page");
+    let o = run(&[
+        "audit",
+        meta.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--doubt",
+        "2",
+    ]);
+    assert_one_error(&o, 1, &["--doubt"]);
 }

@@ -1,8 +1,10 @@
 //! The pipeline: composes the stages (recording → tracks → features → predictions) so the
 //! command line, the benchmarks and the tests all run the same path.
 
+pub mod audit;
 pub mod classify;
 pub mod matching;
+pub mod pictures;
 pub mod settings;
 pub mod signals;
 pub mod tracks;

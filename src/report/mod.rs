@@ -1,8 +1,11 @@
 //! Reports: tables, JSON and CSV exporters for results computed by the other stages.
 //! `report` reads results; it computes none.
 
+pub mod audit;
 pub mod features_csv;
+pub mod font;
 pub mod info;
+pub mod plot;
 pub mod scores;
 pub mod table;
 pub mod tracks;
