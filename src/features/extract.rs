@@ -87,6 +87,10 @@ pub struct TrackKinematics {
     pub snr_std_db: f64,
     /// Share of the track's CPIs found by the micro-Doppler detector alone.
     pub notch_share: f64,
+    /// Rate of change of the body's radial velocity, m/s^2 (0 when it changes by less
+    /// than `MIN_VELOCITY_CHANGE_MPS` over the track). A crossing target's radial velocity
+    /// runs through zero; the body line is demodulated along it.
+    pub body_accel_mps2: f64,
 }
 
 /// Physical estimates read off the features (`None` when no rotor is seen).
@@ -192,14 +196,29 @@ impl Extractor {
     /// picture and feature): `x - moving mean(x)` over `clutter_window_s`, then multiplied
     /// by `exp(-j 2 pi f_body t)`, f_body = 2 v_body / lambda.
     pub fn prepare(&self, x: &[Complex32], body_velocity_mps: f64) -> Vec<Complex32> {
+        self.prepare_along(x, body_velocity_mps, 0.0)
+    }
+
+    /// As [`Extractor::prepare`], with the body's radial velocity changing at
+    /// `accel_mps2` around `body_velocity_mps` at the signal's middle:
+    /// `v(t) = v + a (t - t_mid)`, demodulated by `exp(-j 4 pi / lambda (v t + a (t - t_mid)^2 / 2))`.
+    pub fn prepare_along(
+        &self,
+        x: &[Complex32],
+        body_velocity_mps: f64,
+        accel_mps2: f64,
+    ) -> Vec<Complex32> {
         let w = ((self.settings.clutter_window_s * self.prf) as usize).clamp(3, x.len().max(3));
         let y = subtract_moving_mean(x, w);
-        let f = 2.0 * body_velocity_mps / self.lambda;
-        let step = -2.0 * std::f64::consts::PI * f / self.prf;
+        let k = -4.0 * std::f64::consts::PI / self.lambda;
+        let t_mid = y.len() as f64 / 2.0 / self.prf;
         y.iter()
             .enumerate()
             .map(|(m, &v)| {
-                let ph = step * m as f64;
+                let t = m as f64 / self.prf;
+                let d = t - t_mid;
+                let ph = (k * (body_velocity_mps * t + 0.5 * accel_mps2 * d * d))
+                    .rem_euclid(std::f64::consts::TAU);
                 v * Complex32::new(ph.cos() as f32, ph.sin() as f32)
             })
             .collect()
@@ -241,7 +260,7 @@ impl Extractor {
         if x.len() < self.stft.params().nperseg * 4 {
             return Ok((v, none));
         }
-        let z = self.prepare(x, kin.body_velocity_mps);
+        let z = self.prepare_along(x, kin.body_velocity_mps, kin.body_accel_mps2);
 
         // Amplitude envelope (5 ms boxcar), its spread and periodicity.
         let env_w = ((0.005 * self.prf) as usize).max(1);

@@ -161,6 +161,43 @@ pub fn kinematics(track: &Track) -> TrackKinematics {
         snr_db: track.mean_snr_db(),
         snr_std_db: std(&snr),
         notch_share: notch as f64 / track.points.len().max(1) as f64,
+        body_accel_mps2: body_accel(&t, &v),
+    }
+}
+
+/// Least change of the body's radial velocity over a track that counts as a trend, m/s.
+pub const MIN_VELOCITY_CHANGE_MPS: f64 = 1.0;
+/// Largest trend believed, m/s^2 (a small airframe or bird crossing at 20 m/s passes
+/// 10 m from the radar with a few m/s^2 of radial change).
+const MAX_ACCEL_MPS2: f64 = 10.0;
+
+/// Trend of the detections' radial velocity: the Theil-Sen slope (median of the pairwise
+/// slopes; robust to the odd detection on a blade line), 0 when the change it implies over
+/// the track is under `MIN_VELOCITY_CHANGE_MPS` or the track has fewer than 5 points;
+/// clamped to +/- `MAX_ACCEL_MPS2`.
+pub fn body_accel(t: &[f64], v: &[f64]) -> f64 {
+    let n = t.len().min(v.len());
+    if n < 5 {
+        return 0.0;
+    }
+    let mut slopes = Vec::with_capacity(n * (n - 1) / 2);
+    for i in 0..n {
+        for j in i + 1..n {
+            let dt = t[j] - t[i];
+            if dt > 1e-9 {
+                slopes.push((v[j] - v[i]) / dt);
+            }
+        }
+    }
+    if slopes.is_empty() {
+        return 0.0;
+    }
+    let a = median(&slopes).clamp(-MAX_ACCEL_MPS2, MAX_ACCEL_MPS2);
+    let dur = t[n - 1] - t[0];
+    if (a * dur).abs() < MIN_VELOCITY_CHANGE_MPS {
+        0.0
+    } else {
+        a
     }
 }
 
