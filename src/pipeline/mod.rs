@@ -173,8 +173,8 @@ const MAX_ACCEL_MPS2: f64 = 10.0;
 
 /// Trend of the detections' radial velocity: the Theil-Sen slope (median of the pairwise
 /// slopes; robust to the odd detection on a blade line), 0 when the change it implies over
-/// the track is under `MIN_VELOCITY_CHANGE_MPS` or the track has fewer than 5 points;
-/// clamped to +/- `MAX_ACCEL_MPS2`.
+/// the track is under `MIN_VELOCITY_CHANGE_MPS` or under 3 median absolute residuals, or
+/// the track has fewer than 5 points; clamped to +/- `MAX_ACCEL_MPS2`.
 pub fn body_accel(t: &[f64], v: &[f64]) -> f64 {
     let n = t.len().min(v.len());
     if n < 5 {
@@ -194,7 +194,14 @@ pub fn body_accel(t: &[f64], v: &[f64]) -> f64 {
     }
     let a = median(&slopes).clamp(-MAX_ACCEL_MPS2, MAX_ACCEL_MPS2);
     let dur = t[n - 1] - t[0];
-    if (a * dur).abs() < MIN_VELOCITY_CHANGE_MPS {
+    // The trend must stand out of the detections' own scatter about it (a vegetation
+    // patch's or a bird's velocities wander; a line through them means nothing): the
+    // change over the track at least 3 median absolute residuals.
+    let tm = t[..n].iter().sum::<f64>() / n as f64;
+    let resid: Vec<f64> = (0..n).map(|i| v[i] - a * (t[i] - tm)).collect();
+    let c = median(&resid);
+    let mad = median(&resid.iter().map(|r| (r - c).abs()).collect::<Vec<_>>());
+    if (a * dur).abs() < MIN_VELOCITY_CHANGE_MPS.max(3.0 * mad) {
         0.0
     } else {
         a
