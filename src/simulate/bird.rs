@@ -69,8 +69,9 @@ pub struct Bird {
     phase: f64,
     gliding: bool,
     spell_left_s: f64,
-    /// AR(1) state of the log-RCS fluctuation, unit variance.
+    /// State of the log-RCS fluctuation (unit variance) and of the AR(1) stage driving it.
     g: f64,
+    g_drive: f64,
     sqrt_wing_pt: f64,
     body_rcs: f64,
 }
@@ -82,6 +83,7 @@ impl Bird {
         let gliding = rng.gen::<f64>() < spec.glide_fraction;
         let phase = rng.gen::<f64>() * 2.0 * PI;
         let g = cn64(&mut rng).re * std::f64::consts::SQRT_2;
+        let g_drive = cn64(&mut rng).re * std::f64::consts::SQRT_2;
         let wing = spec.wing_rcs_dbsm.unwrap_or(spec.body_rcs_dbsm - 10.0);
         let mut b = Bird {
             spec: spec.clone(),
@@ -92,6 +94,7 @@ impl Bird {
             gliding,
             spell_left_s: 0.0,
             g,
+            g_drive,
             sqrt_wing_pt: (db_to_lin(wing) / 4.0).sqrt(),
             body_rcs: db_to_lin(spec.body_rcs_dbsm),
         };
@@ -117,8 +120,8 @@ impl Bird {
 
     /// Advances the internal state by dt seconds: flap phase, glide spells, RCS fluctuation.
     /// Body RCS model: sigma(t) = sigma_mean exp(s g(t) - s^2 / 2), s = (fluct dB) ln10 / 10,
-    /// g an AR(1) unit-variance Gaussian with correlation time rcs_correlation_s (a
-    /// log-normal fluctuation with the mean RCS preserved).
+    /// g a unit-variance Gaussian from two cascaded AR(1) stages of time constant
+    /// rcs_correlation_s (a smooth log-normal fluctuation with the mean RCS preserved).
     fn step(&mut self, dt: f64) {
         if !self.gliding {
             self.phase = (self.phase + 2.0 * PI * self.f_wb * dt) % (2.0 * PI);
@@ -128,9 +131,15 @@ impl Bird {
             self.gliding = !self.gliding;
             self.spell_left_s = self.draw_spell();
         }
+        // Two AR(1) stages in cascade: a smooth fluctuation whose spectrum falls as f^-4
+        // (one stage's f^-2 tail would put a strong bird's white-ish residue across every
+        // Doppler bin, which no wing motion makes). The second stage's gain
+        // (1 - rho^2) / sqrt(1 + rho^2) keeps the output at unit variance.
         let rho = (-dt / self.spec.rcs_correlation_s).exp();
         let w = cn64(&mut self.rng).re * std::f64::consts::SQRT_2;
-        self.g = rho * self.g + (1.0 - rho * rho).sqrt() * w;
+        let r2 = rho * rho;
+        self.g_drive = rho * self.g_drive + (1.0 - r2).sqrt() * w;
+        self.g = rho * self.g + (1.0 - r2) / (1.0 + r2).sqrt() * self.g_drive;
     }
 }
 
