@@ -175,6 +175,14 @@ pub fn track_signals(
     let last = spans.iter().map(|s| s.1).max().unwrap_or(0);
     let gate = RangeGate::new(meta, s);
     let top_bin = (meta.params.range_bins() - 1) as f64;
+    // Reference gates stay where their whole gate fits: a range-profile gate cut short
+    // by the profile's edge carries less noise and would read as a quieter reference.
+    let (ref_lo, ref_hi) = match meta.params.waveform() {
+        Waveform::RangeProfile if top_bin >= 2.0 * RANGE_PROFILE_REACH => {
+            (RANGE_PROFILE_REACH, top_bin - RANGE_PROFILE_REACH)
+        }
+        _ => (0.0, top_bin),
+    };
     let mut reader = ChirpReader::open(meta, channel)?;
     reader.seek_chirp(first)?;
     let mut block = ChirpBlock::default();
@@ -197,13 +205,14 @@ pub fn track_signals(
                 };
                 let kappa = bin_at(&tracks[j], meta, chirp as f64 * t);
                 let fold = |k: f64| {
-                    if k < 0.0 {
+                    let k = if k < ref_lo {
                         k + 2.0 * REFERENCE_OFFSET_CELLS
-                    } else if k > top_bin {
+                    } else if k > ref_hi {
                         k - 2.0 * REFERENCE_OFFSET_CELLS
                     } else {
                         k
-                    }
+                    };
+                    k.clamp(ref_lo, ref_hi)
                 };
                 let (k1, k2) = (
                     fold(kappa + REFERENCE_OFFSET_CELLS),
