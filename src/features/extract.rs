@@ -129,7 +129,7 @@ const BAND_FAST: f64 = 20.0;
 const PEAK_SKIRT_MPS: f64 = 8.0;
 /// Least excess over the reference noise level at which the extent is read, dB (the
 /// reference is another range gate; its level is measured over thousands of bins).
-const EXTENT_FLOOR_DB: f64 = 0.1;
+const EXTENT_FLOOR_DB: f64 = 0.5;
 /// Chirps of the CPI the band SNRs are referred to (as the "clear" SNRs are).
 const BAND_CPI: f64 = 256.0;
 
