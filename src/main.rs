@@ -505,6 +505,13 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 for t in &a.tracks {
                     let p = clf.predict(&t.features, model.min_confidence)?;
                     let mut out = track_out(t);
+                    // A track labelled bird or clutter shows no rotor (INTERFACE.md: null
+                    // when no rotor is seen), whatever flash-like periodicity it carries.
+                    if p.label == "bird" || p.label == "clutter" {
+                        out.blade_flash_hz = None;
+                        out.tip_speed_mps = None;
+                        out.blade_length_m = None;
+                    }
                     out.label = Some(p.label);
                     out.confidence = Some(p.confidence);
                     out.probabilities = Some(p.probabilities);
