@@ -167,6 +167,11 @@ pub fn kinematics(track: &Track) -> TrackKinematics {
 
 /// Least change of the body's radial velocity over a track that counts as a trend, m/s.
 pub const MIN_VELOCITY_CHANGE_MPS: f64 = 1.0;
+/// Span of the track, s, around its middle over which the trend is fitted (the default
+/// `FeatureSettings::max_track_s`: the signal the features read).
+const TREND_WINDOW_S: f64 = 4.0;
+/// Most detections the trend is fitted to.
+const TREND_POINTS: usize = 64;
 /// Largest trend believed, m/s^2 (a small airframe or bird crossing at 20 m/s passes
 /// 10 m from the radar with a few m/s^2 of radial change).
 const MAX_ACCEL_MPS2: f64 = 10.0;
@@ -176,7 +181,20 @@ const MAX_ACCEL_MPS2: f64 = 10.0;
 /// the track is under `MIN_VELOCITY_CHANGE_MPS` or under 3 median absolute residuals, or
 /// the track has fewer than 5 points; clamped to +/- `MAX_ACCEL_MPS2`.
 pub fn body_accel(t: &[f64], v: &[f64]) -> f64 {
-    let n = t.len().min(v.len());
+    // The middle TREND_WINDOW_S of the track (what the features see, by default), at most
+    // TREND_POINTS points of it evenly spaced: the pairwise slopes then stay a few
+    // thousand however long the track.
+    let n_all = t.len().min(v.len());
+    if n_all < 5 {
+        return 0.0;
+    }
+    let mid = 0.5 * (t[0] + t[n_all - 1]);
+    let idx: Vec<usize> = (0..n_all)
+        .filter(|&i| (t[i] - mid).abs() <= TREND_WINDOW_S / 2.0)
+        .collect();
+    let step = idx.len().div_ceil(TREND_POINTS).max(1);
+    let (t, v): (Vec<f64>, Vec<f64>) = idx.iter().step_by(step).map(|&i| (t[i], v[i])).unzip();
+    let n = t.len();
     if n < 5 {
         return 0.0;
     }
