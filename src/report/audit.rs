@@ -71,7 +71,7 @@ and rotorcraft. Decision support only: look at the pictures before acting on any
             }
             h.push_str("</tr>\n");
         }
-        h.push_str("</table>\n<p class=\"note\">Track level: each track counts once; `evaluate` scores targets (annotations) instead.</p>\n");
+        h.push_str("</table>\n<p class=\"note\">Track level: each track counts once; <code>rotorsift evaluate</code> scores targets (annotations) instead.</p>\n");
     }
     h.push_str("<h2>Doubtful tracks, most doubtful first</h2>\n");
     if a.entries.is_empty() {
