@@ -643,7 +643,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 )?;
                 pic::track_picture(
                     &meta,
-                    &settings,
+                    &pic::extractor_for(&meta, &settings)?,
                     &sigs[0],
                     kind,
                     &format!("TRACK {}", t.track.id),

@@ -12,7 +12,7 @@ use serde::{Deserialize, Serialize};
 
 use super::names::{count, F};
 use crate::error::{ensure, Result};
-use crate::frontend::cadence::CadencePlan;
+use crate::frontend::cadence::{CadenceDiagram, CadencePlan};
 use crate::frontend::cepstrum::{CepstrumPlan, FrameKind};
 use crate::frontend::{Scaling, StftParams, StftPlan, Window};
 
@@ -611,6 +611,23 @@ impl Extractor {
         Ok(())
     }
 
+    /// Cadence-velocity diagram of a micro-Doppler spectrogram from [`Extractor::stft`]
+    /// (frames x Doppler, linear power; at least 4 frames): the FFT along time of each
+    /// Doppler row of its magnitude, Hann-windowed, zero-padded to a power of two, rows not
+    /// normalised. The features and the pictures both read this one.
+    pub fn cadence_diagram(&self, spec: &ndarray::Array2<f32>) -> Result<CadenceDiagram> {
+        let frames = spec.nrows();
+        let frame_rate = self.prf / self.stft.params().hop() as f64;
+        let mut plan = CadencePlan::new(
+            frames,
+            frames.next_power_of_two(),
+            Window::Hann,
+            frame_rate,
+            false,
+        )?;
+        plan.process(&spec.mapv(f32::sqrt))
+    }
+
     /// Cadence-velocity diagram of the spectrogram magnitude over the Doppler rows within
     /// the micro-Doppler extent (at least the body line's neighbours), rows not normalised.
     fn cadence(
@@ -619,20 +636,11 @@ impl Extractor {
         extent_rows: usize,
         v: &mut [f64],
     ) -> Result<()> {
-        let frame_rate = self.prf / self.stft.params().hop() as f64;
         let (frames, nfft) = spec.dim();
         if frames < 8 {
             return Ok(());
         }
-        let mag = spec.mapv(f32::sqrt);
-        let mut plan = CadencePlan::new(
-            frames,
-            frames.next_power_of_two(),
-            Window::Hann,
-            frame_rate,
-            false,
-        )?;
-        let cvd = plan.process(&mag)?;
+        let cvd = self.cadence_diagram(spec)?;
         let half = extent_rows.max(2);
         let rows = (nfft / 2).saturating_sub(half)..(nfft / 2 + half + 1);
         let summed = cvd.summed_spectrum_rows(rows);

@@ -6,7 +6,9 @@ use std::collections::BTreeMap;
 use std::path::Path;
 
 use super::classify::{Classifier, Prediction};
-use super::pictures::{range_doppler, signals_of, track_picture, PictureKind};
+use super::pictures::{
+    extractor_for, name_of, range_doppler, signals_of, track_picture, PictureKind,
+};
 use super::{match_tracks, RecordingAnalysis};
 use crate::error::Result;
 use crate::report::plot::write_png;
@@ -69,17 +71,10 @@ pub struct Audit {
     pub entries: Vec<AuditEntry>,
 }
 
-/// File-name-safe stem of a recording path.
-fn stem(path: &Path) -> String {
-    let s = path
-        .file_name()
-        .map(|s| {
-            s.to_string_lossy()
-                .trim_end_matches(".sigmf-meta")
-                .to_string()
-        })
-        .unwrap_or_else(|| "recording".into());
-    s.chars()
+/// File-name-safe stem of a recording.
+fn stem(meta: &crate::recording::RecordingMeta) -> String {
+    name_of(meta)
+        .chars()
         .map(|c| {
             if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
                 c
@@ -176,12 +171,13 @@ pub fn audit(
             .map(|&k| a.tracks[picked[k].1].track.clone())
             .collect();
         let sigs = signals_of(&a.meta, channel, &clf.settings, &tracks)?;
-        let name = stem(&a.meta.meta_path);
+        let name = stem(&a.meta);
+        let ex = extractor_for(&a.meta, &clf.settings)?;
         for (&k, sig) in ks.iter().zip(&sigs) {
             let entry = &mut picked[k].2;
             let label = format!("TRACK {}", entry.track_id);
             for kind in [PictureKind::Spectrogram, PictureKind::Cadence] {
-                if let Ok(h) = track_picture(&a.meta, &clf.settings, sig, kind, &label) {
+                if let Ok(h) = track_picture(&a.meta, &ex, sig, kind, &label) {
                     let file = format!("img/{name}-t{}-{}.png", entry.track_id, kind.name());
                     write_png(&h, &dir.join(&file))?;
                     entry.pictures.push((kind, file));

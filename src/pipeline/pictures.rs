@@ -7,14 +7,12 @@ use ndarray::Array2;
 use rustfft::num_complex::Complex32;
 
 use super::signals::{track_signals, TrackSignal};
-use super::tracks::FrontEnd;
+use super::tracks::{cpi_fits, FrontEnd};
 use super::PipelineSettings;
 use crate::detect::Track;
 use crate::error::{Error, Result};
 use crate::features::Extractor;
-use crate::frontend::{
-    CadencePlan, CancellerState, CepstrumPlan, FrameKind, RangeDopplerPlan, Window,
-};
+use crate::frontend::{CancellerState, CepstrumPlan, FrameKind, RangeDopplerPlan};
 use crate::recording::{ChirpBlock, ChirpReader, RecordingMeta};
 use crate::report::plot::HeatMap;
 
@@ -56,7 +54,8 @@ fn median(mut v: Vec<f32>) -> f32 {
     *m
 }
 
-fn name_of(meta: &RecordingMeta) -> String {
+/// A recording's base name (no directory, no `.sigmf-meta`).
+pub fn name_of(meta: &RecordingMeta) -> String {
     meta.meta_path
         .file_name()
         .map(|s| {
@@ -65,6 +64,13 @@ fn name_of(meta: &RecordingMeta) -> String {
                 .to_string()
         })
         .unwrap_or_default()
+}
+
+/// The feature extractor (plans) of a recording's radar, for [`track_picture`]: make it
+/// once per recording and draw every picture of its tracks with it.
+pub fn extractor_for(meta: &RecordingMeta, settings: &PipelineSettings) -> Result<Extractor> {
+    let p = &meta.params;
+    Extractor::new(&settings.features, p.prf_hz(), p.wavelength_m())
 }
 
 /// The cancelled range-Doppler map of the CPI centred on `centre_s` (clamped into the
@@ -78,17 +84,7 @@ pub fn range_doppler(
     let s = &settings.detect;
     let p = &meta.params;
     let k = p.range_bins();
-    let m = s.cpi_for(p.chirp_interval_s);
-    let order = s.canceller.order();
-    if meta.chirps < m + order {
-        return Err(Error::format(
-            &meta.meta_path,
-            format!(
-                "the recording holds {} chirps, fewer than one CPI of {m}",
-                meta.chirps
-            ),
-        ));
-    }
+    let (m, order) = cpi_fits(meta, s)?;
     let centre = (centre_s / p.chirp_interval_s).round() as usize;
     let first = centre
         .saturating_sub(m / 2 + order)
@@ -188,18 +184,17 @@ fn empty_signal() -> TrackSignal {
     }
 }
 
-/// A track picture of `kind` (not `RangeDoppler`) from its signal. `label` names the
-/// track in the title.
+/// A track picture of `kind` (not `RangeDoppler`) from its signal, with the recording's
+/// extractor ([`extractor_for`]). `label` names the track in the title.
 pub fn track_picture(
     meta: &RecordingMeta,
-    settings: &PipelineSettings,
+    ex: &Extractor,
     sig: &TrackSignal,
     kind: PictureKind,
     label: &str,
 ) -> Result<HeatMap> {
     let p = &meta.params;
     let (prf, lambda) = (p.prf_hz(), p.wavelength_m());
-    let ex = Extractor::new(&settings.features, prf, lambda)?;
     let plan = ex.stft();
     let nfft = plan.params().nfft;
     if sig.samples.len() < plan.params().nperseg * 4 {
@@ -264,15 +259,7 @@ pub fn track_picture(
         }
         PictureKind::Cadence => {
             let frame_rate = prf / hop;
-            let mag = spec.mapv(f32::sqrt);
-            let mut cvd_plan = CadencePlan::new(
-                frames,
-                frames.next_power_of_two(),
-                Window::Hann,
-                frame_rate,
-                false,
-            )?;
-            let cvd = cvd_plan.process(&mag)?;
+            let cvd = ex.cadence_diagram(&spec)?;
             let top = cvd.power.iter().copied().fold(0.0f32, f32::max).max(1e-30);
             let values = cvd.power.mapv(|v| db(v / top));
             Ok(HeatMap {

@@ -72,13 +72,10 @@ impl FrontEnd {
     }
 }
 
-/// Runs pass one on a recording's channel.
-pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> Result<TrackRun> {
-    s.check()?;
-    let p = &meta.params;
-    let k = p.range_bins();
-    let m = s.cpi_for(p.chirp_interval_s);
-    let hop = s.hop_for(m);
+/// The CPI length and the canceller's order for `meta` under `s`, or the one-line error
+/// when the recording is shorter than one CPI plus the canceller's history.
+pub(crate) fn cpi_fits(meta: &RecordingMeta, s: &DetectSettings) -> Result<(usize, usize)> {
+    let m = s.cpi_for(meta.params.chirp_interval_s);
     let order = s.canceller.order();
     if meta.chirps < m + order {
         return Err(Error::format(
@@ -89,6 +86,16 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
             ),
         ));
     }
+    Ok((m, order))
+}
+
+/// Runs pass one on a recording's channel.
+pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> Result<TrackRun> {
+    s.check()?;
+    let p = &meta.params;
+    let k = p.range_bins();
+    let (m, _) = cpi_fits(meta, s)?;
+    let hop = s.hop_for(m);
     let prf = p.prf_hz();
     let lambda = p.wavelength_m();
     let mut fe = FrontEnd::new(meta, s)?;
