@@ -110,6 +110,11 @@ pub struct RecordingMeta {
     pub annotations: Vec<Annotation>,
     /// `rotorsift:site`, if given.
     pub site: Option<String>,
+    /// `rotorsift:labels_complete` (default false): every target that moved or hovered is
+    /// annotated, so a track matching no annotation is background.
+    pub labels_complete: bool,
+    /// `core:datetime`, if given (ISO 8601, as SigMF writes it).
+    pub datetime: Option<String>,
     /// `core:version`.
     pub sigmf_version: String,
 }
@@ -262,6 +267,23 @@ impl RecordingMeta {
             .get("rotorsift:site")
             .and_then(Value::as_str)
             .map(str::to_string);
+        let labels_complete = match global.get("rotorsift:labels_complete") {
+            None | Some(Value::Null) => false,
+            Some(Value::Bool(b)) => *b,
+            Some(other) => {
+                return Err(bad(format!(
+                    "\"rotorsift:labels_complete\" is {other}: expected true or false"
+                )))
+            }
+        };
+        let datetime = root
+            .get("captures")
+            .and_then(Value::as_array)
+            .and_then(|c| c.first())
+            .and_then(|c| c.get("core:datetime"))
+            .or_else(|| global.get("core:datetime"))
+            .and_then(Value::as_str)
+            .map(str::to_string);
         Ok(RecordingMeta {
             meta_path: meta_path.to_path_buf(),
             data_path: data_path_of(meta_path),
@@ -271,6 +293,8 @@ impl RecordingMeta {
             chirps,
             annotations,
             site,
+            labels_complete,
+            datetime,
             sigmf_version,
         })
     }

@@ -5,12 +5,15 @@
 
 pub mod bird;
 pub mod clutter;
+pub mod ground;
+pub mod impairments;
 pub mod motion;
 pub mod noise;
 pub mod point;
 pub mod radar_eq;
 pub mod rotor;
 pub mod scene;
+pub mod scintillation;
 pub mod synth;
 
 use std::path::{Path, PathBuf};
@@ -32,6 +35,8 @@ pub const BLOCK_CHIRPS: usize = 1024;
 /// Random stream numbers of a run (objects use `OBJECT_STREAM + index`).
 const NOISE_STREAM: u64 = 1;
 const JITTER_STREAM: u64 = 2;
+/// The radar's own impairments (drift, leakage, DC offset) draw from streams 3.. .
+const IMPAIRMENT_STREAM: u64 = 3;
 const OBJECT_STREAM: u64 = 100;
 
 /// Builds the sources of a run's objects.
@@ -46,7 +51,13 @@ fn build_sources(scene: &Scene, ctx: &Ctx, seed: u64) -> Vec<Box<dyn Source>> {
             let s: Box<dyn Source> = match o {
                 ObjectSpec::Rotorcraft(r) => Box::new(rotor::Rotorcraft::new(r, &mut rng)),
                 ObjectSpec::Bird(b) => Box::new(bird::Bird::new(b, rng)),
-                ObjectSpec::Stationary(s) => Box::new(point::PointSource::stationary(s)),
+                ObjectSpec::Stationary(s) => Box::new(point::PointSource::stationary(
+                    s,
+                    ctx.params.chirp_interval_s,
+                    seed,
+                    stream,
+                )),
+                ObjectSpec::Ground(g) => Box::new(ground::Ground::new(g, ctx, seed, stream)),
                 ObjectSpec::Swaying(s) => Box::new(point::PointSource::swaying(s, &mut rng)),
                 ObjectSpec::Point(p) => Box::new(point::PointSource::point(p, &mut rng)),
                 ObjectSpec::Vegetation(v) => {
@@ -80,6 +91,7 @@ pub fn simulate(
     let jitter = scene.radar.phase_jitter_rad;
     let mut noise_rng = noise::stream_rng(seed, NOISE_STREAM);
     let mut jitter_rng = noise::stream_rng(seed, JITTER_STREAM);
+    let mut radar_self = impairments::Impairments::new(&scene.radar, &ctx, seed, IMPAIRMENT_STREAM);
     let mut buf = vec![Complex32::new(0.0, 0.0); BLOCK_CHIRPS.min(total) * n];
     let mut sig = vec![Complex32::new(0.0, 0.0); n];
     let mut m = 0;
@@ -100,9 +112,12 @@ pub fn simulate(
             } else {
                 Complex32::new(1.0, 0.0)
             };
+            let drift = radar_self.next_drift();
+            let rot = rot * Complex32::new(drift.re as f32, drift.im as f32);
             for (o, s) in out.iter_mut().zip(sig.iter()) {
                 *o += *s * rot;
             }
+            radar_self.add_receiver(drift, out);
         }
         sink(block)?;
         m += chirps;
@@ -261,6 +276,9 @@ pub fn simulate_scene_file(
         );
         if let Some(site) = &run.site {
             g.insert("rotorsift:site".into(), json!(site));
+        }
+        if run.labels_complete {
+            g.insert("rotorsift:labels_complete".into(), json!(true));
         }
         g.insert(
             "core:recorder".into(),

@@ -1,4 +1,5 @@
-//! Point scatterers of constant RCS: `stationary` returns (buildings, poles; fixed phase),
+//! Point scatterers of constant RCS: `stationary` returns (buildings, poles; fixed phase,
+//! optionally with slow amplitude and phase scintillation, see [`super::scintillation`]),
 //! `swaying` slow movers (masts, signs: R(t) = R0 + a sin(2 pi t / period) along the line
 //! of sight) and `point` test targets on any motion.
 
@@ -10,8 +11,10 @@ use rustfft::num_complex::{Complex32, Complex64};
 use serde_json::{json, Map, Value};
 
 use super::motion::{norm, Trajectory, V3};
+use super::noise::stream_rng;
 use super::radar_eq::{db_to_lin, lin_to_db};
 use super::scene::{PointSpec, StationarySpec, SwayingSpec};
+use super::scintillation::Scintillation;
 use super::synth::{traj_kinematics, Ctx, Source};
 
 /// A point scatterer on a trajectory, or swaying radially about a fixed point.
@@ -22,17 +25,35 @@ pub struct PointSource {
     rcs_dbsm: f64,
     /// Radial sway amplitude, m, and angular rate, rad/s (swaying only).
     sway: Option<(f64, f64, f64)>,
+    /// Slow amplitude/phase fluctuation (stationary only).
+    scint: Scintillation,
+    scint_spec: (f64, f64, f64),
 }
 
 impl PointSource {
-    /// A fixed return.
-    pub fn stationary(s: &StationarySpec) -> Self {
+    /// A fixed return of a radar with chirp interval `chirp_interval_s`; its
+    /// scintillation draws from streams derived from (`seed`, `stream`).
+    pub fn stationary(s: &StationarySpec, chirp_interval_s: f64, seed: u64, stream: u64) -> Self {
+        let base = stream.wrapping_mul(1000);
         PointSource {
             kind: "stationary",
             traj: Trajectory::fixed(s.position),
             sqrt_rcs: db_to_lin(s.rcs_dbsm).sqrt(),
             rcs_dbsm: s.rcs_dbsm,
             sway: None,
+            scint: Scintillation::new(
+                s.amplitude_scintillation,
+                s.phase_scintillation_rad,
+                (s.scintillation_hz, s.scintillation_order),
+                chirp_interval_s,
+                stream_rng(seed, base.wrapping_add(1)),
+                stream_rng(seed, base.wrapping_add(2)),
+            ),
+            scint_spec: (
+                s.amplitude_scintillation,
+                s.phase_scintillation_rad,
+                s.scintillation_hz,
+            ),
         }
     }
     /// A swaying return; its sway phase is drawn from `rng`.
@@ -43,6 +64,8 @@ impl PointSource {
             sqrt_rcs: db_to_lin(s.rcs_dbsm).sqrt(),
             rcs_dbsm: s.rcs_dbsm,
             sway: Some((s.sway_m, 2.0 * PI / s.period_s, rng.gen::<f64>() * 2.0 * PI)),
+            scint: Scintillation::none(),
+            scint_spec: (0.0, 0.0, 0.0),
         }
     }
     /// A moving point.
@@ -53,6 +76,8 @@ impl PointSource {
             sqrt_rcs: db_to_lin(s.rcs_dbsm).sqrt(),
             rcs_dbsm: s.rcs_dbsm,
             sway: None,
+            scint: Scintillation::none(),
+            scint_spec: (0.0, 0.0, 0.0),
         }
     }
 
@@ -83,7 +108,8 @@ impl Source for PointSource {
             return;
         }
         let a = ctx.budget.amplitude_per_sqrt_m2(r) * self.sqrt_rcs;
-        ctx.put(sig, Complex64::from_polar(a, ctx.k4 * r), r);
+        let g = self.scint.next_gain();
+        ctx.put(sig, Complex64::from_polar(a, ctx.k4 * r) * g, r);
     }
     fn kinematics(&self, t: f64) -> Option<(V3, f64)> {
         self.range_vel(t).map(|(_, p, v)| (p, v))
@@ -101,6 +127,11 @@ impl Source for PointSource {
             m.insert("sway_period_s".into(), json!(2.0 * PI / w));
         }
         m.insert("rcs_dbsm".into(), json!(self.rcs_dbsm));
+        if self.scint_spec.0 > 0.0 || self.scint_spec.1 > 0.0 {
+            m.insert("amplitude_scintillation".into(), json!(self.scint_spec.0));
+            m.insert("phase_scintillation_rad".into(), json!(self.scint_spec.1));
+            m.insert("scintillation_hz".into(), json!(self.scint_spec.2));
+        }
         let snr = ctx.budget.snr(db_to_lin(self.rcs_dbsm), median_range_m) * ctx.coherent_gain();
         m.insert(
             "snr_db".into(),

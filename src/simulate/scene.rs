@@ -65,6 +65,39 @@ pub struct RadarSpec {
     /// Per-chirp common phase noise on every return (not the noise), rad rms (default 0).
     #[serde(default)]
     pub phase_jitter_rad: f64,
+    /// Slow common gain drift of every return, rms fraction (default 0).
+    #[serde(default)]
+    pub gain_drift: f64,
+    /// Slow common phase drift of every return, rad rms (default 0).
+    #[serde(default)]
+    pub phase_drift_rad: f64,
+    /// -3 dB bandwidth of the gain and phase drift, Hz (default 1).
+    #[serde(default = "default_drift_hz")]
+    pub drift_hz: f64,
+    /// Order of the drift's low-pass, 1..=6 (default 3).
+    #[serde(default = "default_scint_order")]
+    pub drift_order: usize,
+    /// FMCW: transmitter-to-receiver leakage, per-sample SNR of its beat tone, dB (default:
+    /// none).
+    #[serde(default)]
+    pub leakage_snr_db: Option<f64>,
+    /// FMCW: the leakage path's equivalent range, m (default 0.3).
+    #[serde(default = "default_leakage_range")]
+    pub leakage_range_m: f64,
+    /// FMCW: receiver DC offset, per-sample SNR of the constant, dB (default: none).
+    #[serde(default)]
+    pub dc_offset_snr_db: Option<f64>,
+    /// ci16_le only: rms of one part (I or Q) of the unit-variance noise, LSB (default
+    /// 32767 / (300 sqrt 2) = 77.2, so full scale sits 49.5 dB over the noise per sample).
+    #[serde(default)]
+    pub noise_rms_lsb: Option<f64>,
+}
+
+fn default_drift_hz() -> f64 {
+    1.0
+}
+fn default_leakage_range() -> f64 {
+    0.3
 }
 
 fn default_datatype() -> String {
@@ -140,7 +173,13 @@ impl RadarSpec {
     pub fn datatype(&self) -> Result<(DataType, f32)> {
         match self.datatype.as_str() {
             "cf32_le" => Ok((DataType::Cf32Le, 1.0)),
-            "ci16_le" => Ok((DataType::Ci16Le, CI16_SCALE)),
+            "ci16_le" => Ok((
+                DataType::Ci16Le,
+                match self.noise_rms_lsb {
+                    Some(lsb) => (lsb * std::f64::consts::SQRT_2 / 32767.0) as f32,
+                    None => CI16_SCALE,
+                },
+            )),
             s => Err(Error::Invalid(format!(
                 "radar.datatype = \"{s}\": expected \"cf32_le\" or \"ci16_le\""
             ))),
@@ -162,7 +201,30 @@ impl RadarSpec {
         if let Some(b) = self.noise_bandwidth_hz {
             finite_pos("radar.noise_bandwidth_hz", b)?;
         }
-        range("radar.phase_jitter_rad", self.phase_jitter_rad, 0.0, 3.2)
+        range("radar.phase_jitter_rad", self.phase_jitter_rad, 0.0, 3.2)?;
+        range("radar.gain_drift", self.gain_drift, 0.0, 0.5)?;
+        range("radar.phase_drift_rad", self.phase_drift_rad, 0.0, 3.2)?;
+        range("radar.drift_hz", self.drift_hz, 1e-3, 1e3)?;
+        range("radar.drift_order", self.drift_order as f64, 1.0, 6.0)?;
+        let fmcw = self.waveform == Waveform::FmcwBeat;
+        for (k, v) in [
+            ("radar.leakage_snr_db", self.leakage_snr_db),
+            ("radar.dc_offset_snr_db", self.dc_offset_snr_db),
+        ] {
+            if let Some(v) = v {
+                if !fmcw {
+                    return Err(Error::Invalid(format!(
+                        "{k} is given: expected it only with waveform = \"fmcw-beat\""
+                    )));
+                }
+                range(k, v, -50.0, 90.0)?;
+            }
+        }
+        range("radar.leakage_range_m", self.leakage_range_m, 0.0, 1e4)?;
+        if let Some(l) = self.noise_rms_lsb {
+            range("radar.noise_rms_lsb", l, 0.5, 10_000.0)?;
+        }
+        Ok(())
     }
 }
 
@@ -310,18 +372,83 @@ fn default_heading() -> f64 {
     90.0
 }
 
-/// A fixed point return (building, pole).
+/// A fixed point return (building, pole), optionally scintillating.
 #[derive(Debug, Clone, Deserialize, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct StationarySpec {
     pub id: String,
     pub position: [f64; 3],
     pub rcs_dbsm: f64,
+    /// Amplitude scintillation, rms fraction (default 0).
+    #[serde(default)]
+    pub amplitude_scintillation: f64,
+    /// Phase scintillation, rad rms (default 0).
+    #[serde(default)]
+    pub phase_scintillation_rad: f64,
+    /// -3 dB bandwidth of the scintillation, Hz (default 1).
+    #[serde(default = "default_scint_hz")]
+    pub scintillation_hz: f64,
+    /// Order of the scintillation's low-pass (sections; its skirt falls 20 dB a decade per
+    /// section), 1..=6 (default 3).
+    #[serde(default = "default_scint_order")]
+    pub scintillation_order: usize,
     /// Default false.
     #[serde(default)]
     pub annotate: Option<bool>,
     #[serde(default)]
     pub label: Option<String>,
+}
+
+fn default_scint_hz() -> f64 {
+    1.0
+}
+fn default_scint_order() -> usize {
+    super::scintillation::DEFAULT_ORDER
+}
+
+/// Distributed ground clutter over a range interval: one Rayleigh cell (complex Gaussian
+/// amplitude) per radar range cell, RCS sigma0 x R x azimuth beamwidth x range cell (low
+/// grazing), each scintillating slowly on its own.
+#[derive(Debug, Clone, Deserialize, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct GroundSpec {
+    pub id: String,
+    /// The patch covers the range cells whose centres lie in [range_min_m, range_max_m].
+    pub range_min_m: f64,
+    pub range_max_m: f64,
+    /// Backscatter coefficient sigma0, dB (m^2 per m^2).
+    pub sigma0_db: f64,
+    /// Azimuth (-3 dB) beamwidth, degrees (default 10).
+    #[serde(default = "default_beamwidth")]
+    pub azimuth_beamwidth_deg: f64,
+    /// Amplitude scintillation of each cell, rms fraction (default 0.01).
+    #[serde(default = "default_ground_amp")]
+    pub amplitude_scintillation: f64,
+    /// Phase scintillation of each cell, rad rms (default 0.005).
+    #[serde(default = "default_ground_phase")]
+    pub phase_scintillation_rad: f64,
+    /// -3 dB bandwidth of the scintillation, Hz (default 1).
+    #[serde(default = "default_scint_hz")]
+    pub scintillation_hz: f64,
+    /// Order of the scintillation's low-pass (sections; its skirt falls 20 dB a decade per
+    /// section), 1..=6 (default 3).
+    #[serde(default = "default_scint_order")]
+    pub scintillation_order: usize,
+    /// Default false.
+    #[serde(default)]
+    pub annotate: Option<bool>,
+    #[serde(default)]
+    pub label: Option<String>,
+}
+
+fn default_beamwidth() -> f64 {
+    10.0
+}
+fn default_ground_amp() -> f64 {
+    0.01
+}
+fn default_ground_phase() -> f64 {
+    0.005
 }
 
 /// A point scatterer of constant RCS on any motion (test target).
@@ -399,6 +526,7 @@ pub enum ObjectSpec {
     Vegetation(VegetationSpec),
     Swaying(SwayingSpec),
     Point(PointSpec),
+    Ground(GroundSpec),
 }
 
 impl ObjectSpec {
@@ -411,6 +539,7 @@ impl ObjectSpec {
             ObjectSpec::Vegetation(o) => &o.id,
             ObjectSpec::Swaying(o) => &o.id,
             ObjectSpec::Point(o) => &o.id,
+            ObjectSpec::Ground(o) => &o.id,
         }
     }
     /// The kind's name.
@@ -422,6 +551,7 @@ impl ObjectSpec {
             ObjectSpec::Vegetation(_) => "vegetation",
             ObjectSpec::Swaying(_) => "swaying",
             ObjectSpec::Point(_) => "point",
+            ObjectSpec::Ground(_) => "ground",
         }
     }
     /// Whether the object gets an annotation, and its label.
@@ -433,6 +563,7 @@ impl ObjectSpec {
             ObjectSpec::Vegetation(o) => (o.annotate, &o.label, true, "clutter"),
             ObjectSpec::Swaying(o) => (o.annotate, &o.label, true, "clutter"),
             ObjectSpec::Point(o) => (o.annotate, &o.label, false, "point"),
+            ObjectSpec::Ground(o) => (o.annotate, &o.label, false, "clutter"),
         };
         if ann.unwrap_or(default_ann) {
             Some(label.clone().unwrap_or_else(|| default_label.to_string()))
@@ -468,6 +599,8 @@ pub struct Scene {
     pub seed: u64,
     /// Free-text site (fictional).
     pub site: Option<String>,
+    /// Every target that moves or hovers is annotated (`rotorsift:labels_complete`).
+    pub labels_complete: bool,
     /// Free-text description (defaults to the name).
     pub description: Option<String>,
     /// The radar.
@@ -486,6 +619,8 @@ struct RunFile {
     #[serde(default)]
     site: Option<String>,
     #[serde(default)]
+    labels_complete: Option<bool>,
+    #[serde(default)]
     description: Option<String>,
     #[serde(default)]
     object: Vec<ObjectSpec>,
@@ -499,6 +634,8 @@ struct SceneFile {
     seed: Option<u64>,
     #[serde(default)]
     site: Option<String>,
+    #[serde(default)]
+    labels_complete: Option<bool>,
     #[serde(default)]
     description: Option<String>,
     #[serde(default)]
@@ -531,6 +668,7 @@ impl Scene {
                 duration_s,
                 seed: base_seed,
                 site: f.site.clone(),
+                labels_complete: f.labels_complete.unwrap_or(false),
                 description: f.description.clone(),
                 radar: f.radar.clone(),
                 objects: f.object,
@@ -548,6 +686,7 @@ impl Scene {
                     duration_s: r.duration_s,
                     seed: r.seed.unwrap_or(base_seed.wrapping_add(i as u64)),
                     site: r.site.or_else(|| f.site.clone()),
+                    labels_complete: r.labels_complete.or(f.labels_complete).unwrap_or(false),
                     description: r.description.or_else(|| f.description.clone()),
                     radar: f.radar.clone(),
                     objects: r.object,
@@ -699,6 +838,13 @@ fn check_motion(m: &MotionSpec, start_s: f64, stop_s: Option<f64>) -> Result<()>
     Ok(())
 }
 
+fn check_scintillation(amplitude: f64, phase_rad: f64, hz: f64, order: usize) -> Result<()> {
+    range("amplitude_scintillation", amplitude, 0.0, 0.5)?;
+    range("phase_scintillation_rad", phase_rad, 0.0, 3.2)?;
+    range("scintillation_hz", hz, 1e-3, 1e3)?;
+    range("scintillation_order", order as f64, 1.0, 6.0)
+}
+
 fn rcs(key: &str, v: f64) -> Result<()> {
     range(key, v, -200.0, 80.0)
 }
@@ -763,6 +909,29 @@ fn check_object(o: &ObjectSpec, p: &RadarParams) -> Result<()> {
         ObjectSpec::Stationary(s) => {
             pos3("position", s.position)?;
             rcs("rcs_dbsm", s.rcs_dbsm)?;
+            check_scintillation(
+                s.amplitude_scintillation,
+                s.phase_scintillation_rad,
+                s.scintillation_hz,
+                s.scintillation_order,
+            )?;
+        }
+        ObjectSpec::Ground(g) => {
+            range("range_min_m", g.range_min_m, 0.0, 1e6)?;
+            if !(g.range_max_m.is_finite() && g.range_max_m >= g.range_min_m) {
+                return Err(Error::Invalid(format!(
+                    "range_max_m = {}: expected a number >= range_min_m = {}",
+                    g.range_max_m, g.range_min_m
+                )));
+            }
+            range("sigma0_db", g.sigma0_db, -90.0, 10.0)?;
+            range("azimuth_beamwidth_deg", g.azimuth_beamwidth_deg, 0.1, 180.0)?;
+            check_scintillation(
+                g.amplitude_scintillation,
+                g.phase_scintillation_rad,
+                g.scintillation_hz,
+                g.scintillation_order,
+            )?;
         }
         ObjectSpec::Point(s) => {
             check_motion(&s.motion, s.start_s, s.stop_s)?;
