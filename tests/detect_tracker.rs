@@ -19,6 +19,9 @@ fn det(range_m: f64, velocity_mps: f64) -> Detection {
         range_max_m: range_m + CELL_M,
         spread_mps: 1.0,
         in_notch: velocity_mps.abs() < 0.3,
+        rotor_evidence: 0.0,
+        residue_share: 0.0,
+        md_ratio: 0.0,
     }
 }
 

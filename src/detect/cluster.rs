@@ -181,6 +181,9 @@ fn measure(
         range_max_m: range_of_cell(last as f64),
         spread_mps: var.max(0.0).sqrt(),
         in_notch: in_notch(b.doppler),
+        rotor_evidence: 0.0,
+        residue_share: 0.0,
+        md_ratio: 0.0,
     }
 }
 

@@ -10,6 +10,11 @@
 //! `D / ENBW` (equivalent noise bandwidth in bins; Harris, "On the use of windows for harmonic
 //! analysis with the DFT", Proc. IEEE 66(1), 1978). The Gamma quantile uses the
 //! Wilson–Hilferty cube-root approximation (Wilson & Hilferty, PNAS 17, 1931).
+//!
+//! Blades a few dB over the noise per CPI are still plain over a second, so each cell's
+//! ratio is also averaged over the last `integration_cpis` CPIs and tested against the
+//! Gamma quantile of that many CPIs' bins (counted as independent in proportion to the
+//! CPIs' hop, [`MicroDopplerDetector::set_independence`]): evidence integrated over time.
 
 use ndarray::ArrayView2;
 
@@ -22,6 +27,13 @@ pub struct MicroDopplerParams {
     pub pfa: f64,
     /// Equivalent noise bandwidth of the Doppler window, in bins (Hann: 1.5).
     pub window_enbw_bins: f64,
+    /// CPIs over which each cell's ratio is also averaged and tested (1 = no integration).
+    #[serde(default = "default_integration")]
+    pub integration_cpis: usize,
+}
+
+fn default_integration() -> usize {
+    16
 }
 
 impl Default for MicroDopplerParams {
@@ -29,6 +41,7 @@ impl Default for MicroDopplerParams {
         MicroDopplerParams {
             pfa: 1e-5,
             window_enbw_bins: 1.5,
+            integration_cpis: default_integration(),
         }
     }
 }
@@ -47,7 +60,13 @@ impl MicroDopplerParams {
                     self.window_enbw_bins
                 )
             },
-        )
+        )?;
+        ensure((1..=256).contains(&self.integration_cpis), || {
+            format!(
+                "micro-Doppler integration {} CPIs: expected 1..=256",
+                self.integration_cpis
+            )
+        })
     }
 }
 
@@ -61,6 +80,8 @@ pub struct MicroDopplerHit {
     /// Excess energy over the noise, summed over the out-of-notch bins, dB
     /// (10 log10((ratio - 1) * bins)): an integrated SNR of the spread.
     pub snr_db: f32,
+    /// True when the cell passed on its ratio averaged over the last CPIs only.
+    pub integrated: bool,
 }
 
 /// Inverse of the standard normal CDF (Acklam's rational approximation, relative error
@@ -120,12 +141,24 @@ pub fn gamma_mean_threshold(k: f64, pfa: f64) -> f64 {
     (1.0 - a + z * a.sqrt()).powi(3)
 }
 
-/// The detector; keeps its work buffer between CPIs.
+/// The detector; keeps its work buffers and each cell's recent ratios between CPIs.
 #[derive(Debug, Clone)]
 pub struct MicroDopplerDetector {
     params: MicroDopplerParams,
+    independence: f64,
     means: Vec<f32>,
     sorted: Vec<f32>,
+    /// Ring of the last `integration_cpis` ratios per cell, cell-major.
+    history: Vec<f32>,
+    /// Sum of each cell's ring.
+    sums: Vec<f32>,
+    filled: usize,
+    pos: usize,
+    /// Per cell: the ratio averaged over the ring (1 = noise).
+    evidence: Vec<f32>,
+    /// Per cell: the last CPI's ratio over its scale.
+    last: Vec<f32>,
+    thr_integrated: f32,
 }
 
 impl MicroDopplerDetector {
@@ -134,9 +167,49 @@ impl MicroDopplerDetector {
         params.check()?;
         Ok(MicroDopplerDetector {
             params,
+            independence: 1.0,
             means: Vec::new(),
             sorted: Vec::new(),
+            history: Vec::new(),
+            sums: Vec::new(),
+            filled: 0,
+            pos: 0,
+            evidence: Vec::new(),
+            last: Vec::new(),
+            thr_integrated: f32::INFINITY,
         })
+    }
+
+    /// Share of a CPI that is new from one CPI to the next (hop / CPI length, in (0, 1]):
+    /// overlapping CPIs share noise, so the integrated test counts `1 + (L - 1) share`
+    /// independent CPIs of the `L` in its ring.
+    pub fn set_independence(&mut self, share: f64) {
+        self.independence = share.clamp(0.01, 1.0);
+    }
+
+    /// The ratio of cell `k` averaged over the recent CPIs (1 = noise; 0 before any map).
+    pub fn evidence(&self, k: usize) -> f32 {
+        self.evidence.get(k).copied().unwrap_or(0.0)
+    }
+
+    /// The last CPI's ratio of cell `k` over its threshold scale (1 = noise; 0 before any
+    /// map): the value a longer average, over a whole track, is made of.
+    pub fn last_ratio(&self, k: usize) -> f32 {
+        self.last.get(k).copied().unwrap_or(0.0)
+    }
+
+    /// The threshold a ratio averaged over `cpis` CPIs (counted independent in proportion
+    /// to the hop, as the ring's) must pass for false-alarm probability `pfa`, with
+    /// `bins` Doppler bins tested.
+    pub fn threshold_over(&self, bins: usize, cpis: usize, pfa: f64) -> f32 {
+        let k_eff = bins as f64 / self.params.window_enbw_bins;
+        let independent = 1.0 + (cpis.max(1) as f64 - 1.0) * self.independence;
+        gamma_mean_threshold(k_eff * independent, pfa) as f32
+    }
+
+    /// The threshold the averaged ratio had to pass in the last CPI.
+    pub fn integrated_threshold(&self) -> f32 {
+        self.thr_integrated
     }
 
     /// Tests every range cell of a normalised (noise mean ≈ 1) range-Doppler power map
@@ -146,6 +219,19 @@ impl MicroDopplerDetector {
         &mut self,
         power: ArrayView2<f32>,
         outside_notch: &[bool],
+        hits: &mut Vec<MicroDopplerHit>,
+    ) {
+        self.detect_scaled(power, outside_notch, &[], hits)
+    }
+
+    /// As [`MicroDopplerDetector::detect`], with each cell's thresholds multiplied by
+    /// `scale[k]` (>= 1; missing entries count as 1): the margin over a cell's expected
+    /// leak. The cell's evidence is then its averaged ratio over `scale[k]`.
+    pub fn detect_scaled(
+        &mut self,
+        power: ArrayView2<f32>,
+        outside_notch: &[bool],
+        scale: &[f32],
         hits: &mut Vec<MicroDopplerHit>,
     ) {
         let bins = outside_notch.iter().filter(|b| **b).count();
@@ -172,17 +258,48 @@ impl MicroDopplerDetector {
         let median = (*med).max(f32::MIN_POSITIVE);
         let k_eff = bins as f64 / self.params.window_enbw_bins;
         let thr = gamma_mean_threshold(k_eff, self.params.pfa) as f32;
+        let ring = self.params.integration_cpis;
+        if self.sums.len() != cells {
+            self.sums = vec![0.0; cells];
+            self.history = vec![0.0; cells * ring];
+            self.evidence = vec![0.0; cells];
+            self.last = vec![0.0; cells];
+            self.filled = 0;
+            self.pos = 0;
+        }
+        self.filled = (self.filled + 1).min(ring);
+        let n = self.filled;
+        let independent = 1.0 + (n as f64 - 1.0) * self.independence;
+        let thr_int = gamma_mean_threshold(k_eff * independent, self.params.pfa) as f32;
+        self.thr_integrated = thr_int;
         for (k, &m) in self.means.iter().enumerate() {
             let ratio = m / median;
-            if ratio > thr {
-                let excess = ((ratio - 1.0) * bins as f32).max(1e-6);
+            let slot = &mut self.history[k * ring + self.pos];
+            self.sums[k] += ratio - *slot;
+            *slot = ratio;
+            let sc = scale.get(k).copied().unwrap_or(1.0).max(1.0);
+            let avg = self.sums[k] / n as f32;
+            self.evidence[k] = avg / sc;
+            self.last[k] = ratio / sc;
+            let (pass, integrated) = if ratio > thr * sc {
+                (true, false)
+            } else if n > 1 && avg > thr_int * sc {
+                (true, true)
+            } else {
+                (false, false)
+            };
+            if pass {
+                let r = if integrated { avg } else { ratio };
+                let excess = ((r - 1.0) * bins as f32).max(1e-6);
                 hits.push(MicroDopplerHit {
                     range: k,
-                    ratio,
+                    ratio: r,
                     snr_db: 10.0 * excess.log10(),
+                    integrated,
                 });
             }
         }
+        self.pos = (self.pos + 1) % ring;
     }
 }
 
@@ -219,6 +336,7 @@ mod tests {
         let mut det = MicroDopplerDetector::new(MicroDopplerParams {
             pfa: 1e-3,
             window_enbw_bins: 1.0,
+            integration_cpis: 1,
         })
         .unwrap();
         let notch: Vec<bool> = (0..128).map(|d| !(62..=66).contains(&d)).collect();

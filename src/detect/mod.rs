@@ -5,6 +5,7 @@
 
 pub mod cfar;
 pub mod cluster;
+pub mod clutter_cfar;
 pub mod detection;
 pub mod microdoppler;
 pub mod tracker;
@@ -13,6 +14,9 @@ pub use cfar::{
     ca_alpha, ca_pfa, os_alpha, os_pfa, os_rank, CfarHit, CfarKind, CfarParams, CfarPlan,
 };
 pub use cluster::{ClusterParams, Clusterer};
+pub use clutter_cfar::{
+    clutter_map_alpha, clutter_map_pfa, ClutterMapCfar, ClutterMapHit, ClutterMapParams,
+};
 pub use detection::Detection;
 pub use microdoppler::{MicroDopplerDetector, MicroDopplerHit, MicroDopplerParams};
 pub use tracker::{Track, TrackPoint, Tracker, TrackerParams};

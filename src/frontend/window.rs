@@ -46,6 +46,12 @@ impl Window {
         }
     }
 
+    /// Half-width of the main lobe, in DFT bins: the number of cosine terms (1 rectangular,
+    /// 2 Hann and Hamming, 3 Blackman; Harris, Proc. IEEE 66(1), 1978).
+    pub fn main_lobe_half_width_bins(self) -> usize {
+        self.cosine_terms().len()
+    }
+
     /// Generalised-cosine coefficients `a_i` of `w[n] = sum_i (-1)^i a_i cos(2 pi i n / D)`.
     fn cosine_terms(self) -> &'static [f64] {
         match self {

@@ -3,12 +3,14 @@
 
 use serde::{Deserialize, Serialize};
 
-use crate::detect::{CfarKind, CfarParams, MicroDopplerParams, TrackerParams};
+use crate::detect::{CfarKind, CfarParams, ClutterMapParams, MicroDopplerParams, TrackerParams};
 use crate::error::{ensure, Result};
 use crate::frontend::{Canceller, Window};
 
-/// Everything that shapes how a recording becomes tracks.
+/// Everything that shapes how a recording becomes tracks. Keys missing from a stored copy
+/// (a model file of an earlier version) take their defaults.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
 pub struct DetectSettings {
     /// Chirps per coherent processing interval (Doppler FFT length); 0 = automatic: the
     /// power of two nearest (in log) to `cpi_target_s / T`, at least 256.
@@ -19,10 +21,23 @@ pub struct DetectSettings {
     pub cpi_target_s: f64,
     /// Time constant of the clutter map (stationary-return estimate), s.
     pub clutter_map_s: f64,
-    /// Clutter-map path: share of a stationary return's power that may leak through phase
-    /// noise (white over Doppler); a hit must exceed this share of it (power ratio; 1e-3
-    /// allows ~0.03 rad rms of residual phase noise).
-    pub clutter_leak: f32,
+    /// Clutter-map CFAR on the notch bins of the clutter-map path: each cell against its
+    /// own history (Nitzberg 1986).
+    pub clutter_cfar: ClutterMapParams,
+    /// Margin on the measured leak of strong stationary returns (their sub-clutter
+    /// visibility): a cell's expected leak, `g(d) ref_k`, is counted this many times over
+    /// (linear).
+    pub leak_margin: f32,
+    /// The micro-Doppler energy detector counts Doppler bins this far from 0 Hz and
+    /// beyond, m/s (energy beyond a few m/s: blades, not a scintillating building's or a
+    /// hedge's spread).
+    pub md_min_speed_mps: f64,
+    /// A track found mostly (at least half its CPIs) in the notch is kept only when at
+    /// least this share of its detections, and at least `notch_confirm_points`, show the
+    /// rotor signature (`Detection::rotor_evidence` >= 1).
+    pub notch_confirm_fraction: f64,
+    /// See `notch_confirm_fraction`.
+    pub notch_confirm_points: usize,
     /// Clutter canceller before the Doppler FFT.
     pub canceller: Canceller,
     /// Rotate each chirp's history to its predecessor's common phase before cancelling.
@@ -39,8 +54,6 @@ pub struct DetectSettings {
     pub cfar: CfarParams,
     /// Micro-Doppler energy detector for returns with the body in the notch.
     pub microdoppler: MicroDopplerParams,
-    /// Range cells skipped at the start of an FMCW profile (DC and leakage).
-    pub skip_near_cells: usize,
     /// Noise floor: median smoother half-width across range, cells.
     pub noise_half_window: usize,
     /// Noise floor: exponential averaging factor across CPIs, (0, 1].
@@ -61,7 +74,11 @@ impl Default for DetectSettings {
             cpi_hop: 0,
             cpi_target_s: 0.0256,
             clutter_map_s: 0.2,
-            clutter_leak: 1e-3,
+            clutter_cfar: ClutterMapParams::default(),
+            leak_margin: 3.0,
+            md_min_speed_mps: 2.0,
+            notch_confirm_fraction: 0.3,
+            notch_confirm_points: 3,
             canceller: Canceller::ThreePulse,
             phase_align: true,
             range_window: Window::Hann,
@@ -76,7 +93,6 @@ impl Default for DetectSettings {
                 pfa: 1e-6,
             },
             microdoppler: MicroDopplerParams::default(),
-            skip_near_cells: 1,
             noise_half_window: 8,
             noise_smoothing: 0.25,
             // Association on range alone: a rotor's strongest Doppler line may be a blade
@@ -167,7 +183,30 @@ impl DetectSettings {
                 )
             },
         )?;
+        ensure(
+            self.leak_margin.is_finite() && self.leak_margin >= 0.0 && self.leak_margin <= 1e3,
+            || format!("leak margin {}: expected 0..=1000", self.leak_margin),
+        )?;
+        ensure(
+            self.md_min_speed_mps.is_finite() && self.md_min_speed_mps >= 0.0,
+            || {
+                format!(
+                    "micro-Doppler least speed {} m/s: expected a finite number >= 0",
+                    self.md_min_speed_mps
+                )
+            },
+        )?;
+        ensure(
+            (0.0..=1.0).contains(&self.notch_confirm_fraction) && self.notch_confirm_points <= 1000,
+            || {
+                format!(
+                    "notch confirmation {} / {} points: expected a share in 0..=1 and at most 1000 points",
+                    self.notch_confirm_fraction, self.notch_confirm_points
+                )
+            },
+        )?;
         self.cfar.check()?;
+        self.clutter_cfar.check()?;
         self.microdoppler.check()?;
         self.tracker.check()
     }

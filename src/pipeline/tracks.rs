@@ -10,13 +10,13 @@ use rustfft::num_complex::Complex32;
 
 use super::settings::DetectSettings;
 use crate::detect::{
-    CfarHit, CfarPlan, ClusterParams, Clusterer, Detection, MicroDopplerDetector, MicroDopplerHit,
-    Track, Tracker,
+    CfarHit, CfarPlan, ClusterParams, Clusterer, ClutterMapCfar, ClutterMapHit, Detection,
+    MicroDopplerDetector, MicroDopplerHit, Track, Tracker,
 };
 use crate::error::{Error, Result};
 use crate::frontend::{
-    CancellerState, ClutterMap, NoiseFloor, NoiseFloorParams, RangeDopplerMap, RangeDopplerPlan,
-    RangePlan,
+    CancellerState, ClutterMap, LeakParams, LeakProfile, NoiseFloor, NoiseFloorParams,
+    RangeDopplerMap, RangeDopplerPlan, RangePlan,
 };
 use crate::recording::{ChirpBlock, ChirpReader, RecordingMeta, Waveform};
 
@@ -105,28 +105,72 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
     let mut clutter_path = MapPath::new(k, m, prf, s, noise_params)?;
     let tau = ((s.clutter_map_s / p.chirp_interval_s).round() as usize).max(m);
     // Not phase-aligned: the alignment estimate's own noise would modulate strong returns;
-    // what common phase noise leaks through is rejected by the leak rule below instead.
+    // what common phase noise leaks through is measured (`LeakProfile`) and held instead.
     let mut cmap = ClutterMap::new(k, tau, false)?;
     let window_energy: f32 = s.doppler_window.coefficients(m).iter().map(|w| w * w).sum();
-    let mut cfar_slow = CfarPlan::new(s.cfar)?;
     let mut cfar = CfarPlan::new(s.cfar)?;
+    // The notch path's CFAR ranks its training cells (OS-CFAR): beside a mast or a
+    // building whose residue fills a few of them, cell averaging would be blind.
+    let mut cfar_slow = CfarPlan::new(crate::detect::CfarParams {
+        kind: crate::detect::CfarKind::OrderedStatistic {
+            rank_fraction: crate::detect::cfar::DEFAULT_OS_RANK,
+        },
+        ..s.cfar
+    })?;
     let mut md = MicroDopplerDetector::new(s.microdoppler)?;
+    md.set_independence(hop as f64 / m as f64);
     let mut clusterer = Clusterer::new(ClusterParams::new(1)?)?;
     let mut tracker = Tracker::new(s.tracker, p.range_cell_m())?;
 
     let notch = notch_mask(m, prf, lambda, s.notch_mps);
     let outside: Vec<bool> = notch.iter().map(|n| !n).collect();
-    let skip = match p.waveform() {
-        Waveform::FmcwBeat => s.skip_near_cells.min(k.saturating_sub(3)),
-        Waveform::RangeProfile => 0,
-    };
-    let allowed = Array2::from_shape_fn((k, m), |(r, d)| r >= skip && outside[d]);
-    let allowed_notch = Array2::from_shape_fn((k, m), |(r, d)| r >= skip && notch[d]);
+    let speed_of_bin =
+        |d: usize| ((d as f64 - (m / 2) as f64) * prf / m as f64 * lambda / 2.0).abs();
+    let md_region: Vec<bool> = (0..m)
+        .map(|d| outside[d] && speed_of_bin(d) >= s.md_min_speed_mps)
+        .collect();
+    let notch_bins: Vec<usize> = (0..m).filter(|&d| notch[d]).collect();
+    let notch_bins_list = notch_bins.clone();
+    let mut cm_cfar = ClutterMapCfar::new(s.clutter_cfar, k, notch_bins)?;
+    // The skirt band, outside the notch but slower than the micro-Doppler band: where the
+    // slow fluctuation of a strong stationary return leaks past the canceller. A CFAR hit
+    // there in a cell holding a strong stationary return must also stand out of that
+    // cell's own history (clutter-map CFAR on the cancelled map).
+    let skirt_bins: Vec<usize> = (0..m).filter(|&d| outside[d] && !md_region[d]).collect();
+    let mut skirt_index = vec![usize::MAX; m];
+    for (j, &d) in skirt_bins.iter().enumerate() {
+        skirt_index[d] = j;
+    }
+    let mut skirt_cfar = ClutterMapCfar::new(s.clutter_cfar, k, skirt_bins.clone())?;
+    let mut skirt_pass = vec![false; k * skirt_bins.len().max(1)];
+    let mut skirt_hits: Vec<ClutterMapHit> = Vec::new();
+    // With the noise known, a single exponential cell exceeds -ln(pfa) times its mean with
+    // probability pfa: the notch path's floor over the noise.
+    let notch_noise_alpha = (-(s.clutter_cfar.pfa.ln())) as f32;
+    let mut leak_c = LeakProfile::new(LeakParams::default(), m);
+    // Each return scintillates its own way in the clutter map's notch: the profile of
+    // the notch path covers nine in ten of them.
+    let mut leak_s = LeakProfile::new(
+        LeakParams {
+            quantile: NOTCH_LEAK_QUANTILE,
+            ..LeakParams::default()
+        },
+        m,
+    );
+    let mut reference = vec![0.0f32; k];
+    let mut residue = vec![0.0f64; k];
+    let mut blind: Option<Blind> = None;
+    let mut allowed = Array2::from_elem((k, m), false);
+    let mut allowed_notch = Array2::from_elem((k, m), false);
+    let mut leak_scale = Array2::from_elem((k, m), 1.0f32);
+    let mut cell_scale = vec![1.0f32; k];
+    let cfar_alpha = cfar_threshold(s)? as f32;
 
     let zero = Complex32::new(0.0, 0.0);
     let mut out = vec![zero; k];
     let mut out_s = vec![zero; k];
     let mut hits: Vec<CfarHit> = Vec::new();
+    let mut cm_hits: Vec<ClutterMapHit> = Vec::new();
     let mut md_hits: Vec<MicroDopplerHit> = Vec::new();
     let mut dets: Vec<Detection> = Vec::new();
     let mut slow_dets: Vec<Detection> = Vec::new();
@@ -164,24 +208,123 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
             let last_chirp = block.first_chirp + i;
             let first_chirp = last_chirp + 1 - m;
             let t_s = (first_chirp as f64 + m as f64 / 2.0) * p.chirp_interval_s;
-            cancelled.normalised_map(pos, skip)?;
+            for (r, c) in reference.iter_mut().enumerate() {
+                *c = cmap.clutter_power(r) * window_energy;
+            }
+            clutter_path.map_and_noise(pos)?;
+            let bl = *blind.get_or_insert_with(|| {
+                blind_cells(p.waveform(), &reference, &clutter_path, s.range_window, k)
+            });
+            let usable = |r: usize| bl.usable(r);
+            if cpis == 0 {
+                allowed = Array2::from_shape_fn((k, m), |(r, d)| usable(r) && outside[d]);
+                allowed_notch = Array2::from_shape_fn((k, m), |(r, d)| usable(r) && notch[d]);
+            }
+            cancelled.map_and_noise(pos)?;
+            // The measured leak of strong stationary returns on both paths; a return that
+            // does not stay put (foliage, a mast, a hovering airframe) is no reference.
+            for (r, share) in residue.iter_mut().enumerate() {
+                *share = clutter_path.residue_share(r, &notch_bins_list, reference[r], m);
+            }
+            let steady = |r: usize| usable(r) && residue[r] < LEAK_REFERENCE_RESIDUE;
+            leak_c.update(
+                k,
+                |r, d| cancelled.map.power[[r, d]],
+                |r, d| cancelled.noise_at(r, d),
+                &reference,
+                steady,
+            );
+            leak_s.update(
+                k,
+                |r, d| clutter_path.map.power[[r, d]],
+                |r, d| clutter_path.noise_at(r, d),
+                &reference,
+                steady,
+            );
+            // Cancelled map, normalised by noise plus what each cell's own stationary
+            // return can leak there.
+            cancelled.normalise_with_leak(
+                bl,
+                &reference,
+                &leak_c,
+                s.leak_margin,
+                &md_region,
+                &mut leak_scale,
+                &mut cell_scale,
+            )?;
             let norm = &cancelled.norm;
             cfar.detect(norm.view(), Some(allowed.view()), &mut hits)?;
+            // the margin over the expected leak: a hit must stand that much higher
+            hits.retain(|h| h.power > h.noise * cfar_alpha * leak_scale[[h.range, h.doppler]]);
+            if !skirt_bins.is_empty() {
+                skirt_hits.clear();
+                skirt_cfar.detect_and_update(
+                    cancelled.map.power.view(),
+                    |_, _| true,
+                    &mut skirt_hits,
+                );
+                skirt_pass.fill(false);
+                for h in &skirt_hits {
+                    skirt_pass[h.range * skirt_bins.len() + skirt_index[h.doppler]] = true;
+                }
+                let nb = skirt_bins.len();
+                let d_ref = m / 4;
+                hits.retain(|h| {
+                    let j = skirt_index[h.doppler];
+                    j == usize::MAX
+                        || reference[h.range] < STRONG_CNR * cancelled.noise_at(h.range, d_ref)
+                        || skirt_pass[h.range * nb + j]
+                });
+            }
             clusterer.cluster(&hits, &range_of_cell, &vel_of_bin, &in_notch, &mut dets);
             n_cfar += dets.len();
             let before = dets.len();
-            // Clutter-map path: bodies inside the notch.
-            clutter_path.normalised_map(pos, skip)?;
-            let (slow, norm_s) = (&clutter_path.map, &clutter_path.norm);
-            cfar_slow.detect(norm_s.view(), Some(allowed_notch.view()), &mut hits)?;
-            // Leak rule (a clutter-map threshold): a strong stationary return leaks part of
-            // its power through any phase noise, spread white over the Doppler bins
-            // (|c|^2 sum w^2 per bin for a leak of 100%); a hit must exceed
-            // `clutter_leak` of that.
-            hits.retain(|h| {
-                slow.power[[h.range, h.doppler]]
-                    > s.clutter_leak * cmap.clutter_power(h.range) * window_energy
-            });
+            // Clutter-map path, notch bins: a cell against its own history (clutter-map
+            // CFAR: what arrives) or against its neighbours (CFAR: what was there from the
+            // start), and always above its noise and above the leak floor of its
+            // stationary return. What stays of a scintillating building is then left to
+            // the track's confirmation (`confirm_notch_tracks`).
+            cm_hits.clear();
+            clutter_path.normalise_into_norm()?;
+            cfar_slow.detect(
+                clutter_path.norm.view(),
+                Some(allowed_notch.view()),
+                &mut hits,
+            )?;
+            {
+                let cp = &clutter_path;
+                let floor = |r: usize, d: usize| {
+                    notch_noise_alpha * cp.noise_at(r, d)
+                        + s.leak_margin * leak_s.ratio(d) * reference[r]
+                };
+                let above = |r: usize, d: usize| usable(r) && cp.map.power[[r, d]] > floor(r, d);
+                cm_cfar.detect_and_update(cp.map.power.view(), above, &mut cm_hits);
+                for h in &hits {
+                    if above(h.range, h.doppler)
+                        && !cm_hits
+                            .iter()
+                            .any(|c| c.range == h.range && c.doppler == h.doppler)
+                    {
+                        cm_hits.push(ClutterMapHit {
+                            range: h.range,
+                            doppler: h.doppler,
+                            ratio: 0.0,
+                        });
+                    }
+                }
+            }
+            hits.clear();
+            hits.extend(cm_hits.iter().map(|h| {
+                let power = clutter_path.map.power[[h.range, h.doppler]];
+                let noise = clutter_path.noise_at(h.range, h.doppler);
+                CfarHit {
+                    range: h.range,
+                    doppler: h.doppler,
+                    power,
+                    noise,
+                    snr_db: 10.0 * (power / noise.max(f32::MIN_POSITIVE)).log10(),
+                }
+            }));
             clusterer.cluster(
                 &hits,
                 &range_of_cell,
@@ -197,20 +340,39 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
                     });
                 }
             }
-            // Micro-Doppler energy: blade spread with the body in the notch.
+            // Micro-Doppler energy beyond the spread band: blades with the body in the notch.
             md_hits.clear();
-            md.detect(norm.view(), &outside, &mut md_hits);
-            md_hits.retain(|h| h.range >= skip);
+            md.detect_scaled(norm.view(), &md_region, &cell_scale, &mut md_hits);
+            md_hits.retain(|h| usable(h.range));
             if !md_hits.is_empty() {
-                add_notch_detections(&md_hits, &mut dets, p, &axis, norm_s);
+                add_notch_detections(&md_hits, &mut dets, p, &axis, &clutter_path.norm);
+            }
+            // Every detection carries the rotor signature of its cells and what of their
+            // stationary return wanders.
+            let thr = md.integrated_threshold().max(1.0 + f32::EPSILON);
+            for d in dets.iter_mut() {
+                let lo = p.bin_of_range(d.range_min_m).max(0.0).round() as usize;
+                let hi = (p.bin_of_range(d.range_max_m).max(0.0).round() as usize).min(k - 1);
+                let cells = lo.min(k - 1)..=hi.max(lo).min(k - 1);
+                let ev = cells.clone().map(|r| md.evidence(r)).fold(0.0f32, f32::max);
+                d.rotor_evidence = ((ev - 1.0) / (thr - 1.0)).max(0.0) as f64;
+                d.md_ratio = cells
+                    .clone()
+                    .map(|r| md.last_ratio(r))
+                    .fold(0.0f32, f32::max) as f64;
+                d.residue_share = cells.map(|r| residue[r]).fold(0.0f64, f64::max);
             }
             n_notch += dets.len() - before;
             tracker.update(cpis, t_s, &dets)?;
             cpis += 1;
         }
     }
+    let md_bins = md_region.iter().filter(|&&b| b).count();
+    let tracks = confirm_notch_tracks(tracker.finish(), s, |n| {
+        md.threshold_over(md_bins, n, NOTCH_TRACK_PFA) as f64
+    });
     Ok(TrackRun {
-        tracks: drop_weak_short(tracker.finish(), s)?,
+        tracks: drop_weak_short(tracks, s)?,
         cpis,
         cpi_s: m as f64 * p.chirp_interval_s,
         cfar_detections: n_cfar,
@@ -219,18 +381,132 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
     })
 }
 
+/// The weighted quantile of the strong returns' notch residue that the notch path's leak
+/// floor follows.
+const NOTCH_LEAK_QUANTILE: f32 = 0.9;
+
+/// Largest notch residue share (`Detection::residue_share`) of a cell whose stationary
+/// return may serve as a reference of the radar's leak (-13 dB: a scintillating building
+/// leaves about -29 dB; foliage and swaying masts most of their power).
+const LEAK_REFERENCE_RESIDUE: f64 = 0.05;
+
+/// False-alarm probability of the whole-track rotor test of a notch track.
+const NOTCH_TRACK_PFA: f64 = 1e-5;
+
+/// Least clutter-to-noise (`ref_k` over the cancelled map's noise per bin, linear) of a
+/// cell whose skirt-band hits must also beat the cell's own history.
+const STRONG_CNR: f32 = 100.0;
+
+/// Least clutter-to-noise (per Doppler bin of a white-equivalent leak, linear) at which a
+/// near-range FMCW return is taken as the transmitter-to-receiver leakage.
+const LEAKAGE_CNR: f32 = 100.0;
+/// Cells searched for the leakage at the start of an FMCW profile.
+const LEAKAGE_SEARCH_CELLS: usize = 4;
+
+/// The range cells nothing is detected in, at either end of the profile.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+struct Blind {
+    /// Cells 0..low.
+    low: usize,
+    /// The last `high` cells.
+    high: usize,
+    cells: usize,
+}
+
+impl Blind {
+    fn usable(&self, r: usize) -> bool {
+        r >= self.low && r + self.high < self.cells
+    }
+}
+
+/// The blind cells. FMCW: bin 0 (zero range: the DC offset) always, and when the strongest
+/// stationary return among the first cells stands `LEAKAGE_CNR` over the noise (the
+/// transmitter-to-receiver leakage, measured on the recording itself), every cell within
+/// its range window's main lobe of it — on both sides, so also the last cells of the
+/// profile, where the complex range FFT puts negative beat frequencies and the leakage's
+/// skirt wraps. Range profiles: none.
+fn blind_cells(
+    waveform: Waveform,
+    reference: &[f32],
+    clutter_path: &MapPath,
+    range_window: crate::frontend::Window,
+    cells: usize,
+) -> Blind {
+    if waveform == Waveform::RangeProfile {
+        return Blind {
+            low: 0,
+            high: 0,
+            cells,
+        };
+    }
+    let d_ref = clutter_path.map.power.ncols() / 4;
+    let search = LEAKAGE_SEARCH_CELLS.min(cells);
+    let strongest = (0..search)
+        .filter(|&r| reference[r] >= LEAKAGE_CNR * clutter_path.noise_at(r, d_ref))
+        .max_by(|&a, &b| reference[a].total_cmp(&reference[b]));
+    let lobe = range_window.main_lobe_half_width_bins();
+    let (low, high) = match strongest {
+        Some(r) => (r + lobe + 1, (lobe + 1).saturating_sub(r)),
+        None => (1, 0),
+    };
+    let keep = 3.min(cells);
+    let low = low.min(cells - keep);
+    Blind {
+        low,
+        high: high.min(cells - keep - low),
+        cells,
+    }
+}
+
+/// Keeps a track found mostly in the notch (at least half its points `in_notch`) only
+/// when it shows the rotor signature, energy beyond the spread band: either enough of its
+/// detections — at least `notch_confirm_points` and `notch_confirm_fraction` of them —
+/// pass on the recent CPIs (`rotor_evidence >= 1`), or the whole track does, its points'
+/// `md_ratio` averaged and held to `threshold(points)` (the micro-Doppler detector's
+/// threshold for that many CPIs at `NOTCH_TRACK_PFA`): weak blades add up over a long
+/// hover. A scintillating building or the leakage, held to its own level, shows neither.
+fn confirm_notch_tracks(
+    tracks: Vec<Track>,
+    s: &DetectSettings,
+    threshold: impl Fn(usize) -> f64,
+) -> Vec<Track> {
+    tracks
+        .into_iter()
+        .filter(|t| {
+            let n = t.points.len();
+            let notch = t.points.iter().filter(|p| p.detection.in_notch).count();
+            if 2 * notch < n {
+                return true;
+            }
+            let rotor = t
+                .points
+                .iter()
+                .filter(|p| p.detection.rotor_evidence >= 1.0)
+                .count();
+            let mean = t.points.iter().map(|p| p.detection.md_ratio).sum::<f64>() / n as f64;
+            (rotor >= s.notch_confirm_points && rotor as f64 >= s.notch_confirm_fraction * n as f64)
+                || mean > threshold(n)
+        })
+        .collect()
+}
+
+/// The CFAR's threshold multiplier over a full training window (linear).
+fn cfar_threshold(s: &DetectSettings) -> Result<f64> {
+    let n = s.cfar.full_count();
+    match s.cfar.kind {
+        crate::detect::CfarKind::CellAveraging => crate::detect::ca_alpha(n, s.cfar.pfa),
+        crate::detect::CfarKind::OrderedStatistic { rank_fraction } => {
+            crate::detect::os_alpha(n, crate::detect::os_rank(n, rank_fraction), s.cfar.pfa)
+        }
+    }
+}
+
 /// Drops the confirmed tracks that M-of-N lets through from noise: shorter than
 /// `weak_track_max_s` and with a mean SNR less than `weak_track_margin_db` above the CFAR
 /// threshold multiplier of a full training window (10 log10 alpha). Ids are renumbered in
 /// start order.
 fn drop_weak_short(tracks: Vec<Track>, s: &DetectSettings) -> Result<Vec<Track>> {
-    let n = s.cfar.full_count();
-    let alpha = match s.cfar.kind {
-        crate::detect::CfarKind::CellAveraging => crate::detect::ca_alpha(n, s.cfar.pfa)?,
-        crate::detect::CfarKind::OrderedStatistic { rank_fraction } => {
-            crate::detect::os_alpha(n, crate::detect::os_rank(n, rank_fraction), s.cfar.pfa)?
-        }
-    };
+    let alpha = cfar_threshold(s)?;
     let floor_db = 10.0 * alpha.log10() + s.weak_track_margin_db;
     let mut kept: Vec<Track> = tracks
         .into_iter()
@@ -276,15 +552,89 @@ impl MapPath {
             prf,
         })
     }
-    /// Range-Doppler map of the ring (next write position `pos`), noise floor updated,
-    /// normalised into `norm`; the first `skip` range cells are set to the noise level.
-    fn normalised_map(&mut self, pos: usize, skip: usize) -> Result<()> {
+    /// Range-Doppler map of the ring (next write position `pos`) and its noise floor
+    /// updated.
+    fn map_and_noise(&mut self, pos: usize) -> Result<()> {
         unroll(&self.ring, pos, self.cells, &mut self.cpi);
         self.plan.process_into(&self.cpi, self.prf, &mut self.map)?;
-        self.noise.update(&self.map)?;
+        self.noise.update(&self.map)
+    }
+
+    /// The power over the noise in the Doppler `bins` of range cell `r`, over the power
+    /// a stationary return of white-equivalent per-bin power `reference` spreads over a
+    /// CPI of `m` chirps (Parseval: `m reference`). 0 without a stationary return.
+    fn residue_share(&self, r: usize, bins: &[usize], reference: f32, m: usize) -> f64 {
+        if reference <= 0.0 {
+            return 0.0;
+        }
+        let row = self.map.power.row(r);
+        let excess: f64 = bins
+            .iter()
+            .map(|&d| (row[d] - self.noise_at(r, d)).max(0.0) as f64)
+            .sum();
+        excess / (m as f64 * reference as f64)
+    }
+
+    /// Mean noise power of cell (`r`, `d`) (linear, map units).
+    #[inline]
+    fn noise_at(&self, r: usize, d: usize) -> f32 {
+        self.noise.noise(r, d).unwrap_or(1.0).max(f32::MIN_POSITIVE)
+    }
+
+    /// The map over its noise floor, into `norm`.
+    fn normalise_into_norm(&mut self) -> Result<()> {
+        self.noise.normalise_into(&self.map, &mut self.norm)
+    }
+
+    /// The map over its noise floor plus the expected leak of each cell's stationary
+    /// return (`leak.ratio(d) reference[r]`), into `norm` (so noise and leak together have
+    /// mean 1); the blind range cells are set to the noise level. Fills `scale` with the
+    /// factor `(1 + margin L) / (1 + L)` of every cell (`L` its leak over the noise), by
+    /// which a hit there must stand higher, and `cell_scale[r]` with the same factor for
+    /// the mean leak of each cell over the Doppler bins of `region`.
+    #[allow(clippy::too_many_arguments)]
+    fn normalise_with_leak(
+        &mut self,
+        blind: Blind,
+        reference: &[f32],
+        leak: &LeakProfile,
+        margin: f32,
+        region: &[bool],
+        scale: &mut Array2<f32>,
+        cell_scale: &mut [f32],
+    ) -> Result<()> {
         self.noise.normalise_into(&self.map, &mut self.norm)?;
-        for r in 0..skip {
-            self.norm.row_mut(r).fill(1.0);
+        scale.fill(1.0);
+        cell_scale.fill(1.0);
+        let g = leak.profile();
+        let region_bins = region.iter().filter(|&&b| b).count().max(1) as f32;
+        if g.iter().any(|&x| x > 0.0) {
+            for (r, mut row) in self.norm.rows_mut().into_iter().enumerate() {
+                let c = reference[r];
+                if c <= 0.0 {
+                    continue;
+                }
+                let mut sum_leak = 0.0f32;
+                for (d, v) in row.iter_mut().enumerate() {
+                    let lk = g[d] * c;
+                    if lk > 0.0 {
+                        let n = self.noise.noise(r, d).unwrap_or(1.0).max(f32::MIN_POSITIVE);
+                        let l = lk / n;
+                        *v /= 1.0 + l;
+                        scale[[r, d]] = (1.0 + margin * l) / (1.0 + l);
+                        if region[d] {
+                            sum_leak += l;
+                        }
+                    }
+                }
+                let l = sum_leak / region_bins;
+                cell_scale[r] = (1.0 + margin * l) / (1.0 + l);
+            }
+        }
+        for r in 0..self.norm.nrows() {
+            if !blind.usable(r) {
+                self.norm.row_mut(r).fill(1.0);
+            }
         }
         Ok(())
     }
@@ -386,6 +736,9 @@ fn add_notch_detections(
             range_max_m: p.range_of_bin(group[group.len() - 1].range as f64),
             spread_mps: 0.0,
             in_notch: true,
+            rotor_evidence: 0.0,
+            residue_share: 0.0,
+            md_ratio: 0.0,
         });
     }
 }
