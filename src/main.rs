@@ -118,6 +118,10 @@ enum Command {
         inputs: Vec<PathBuf>,
         #[command(flatten)]
         model: ModelArgs,
+        /// Count tracks matching no annotation in every recording as false tracks of this
+        /// class (by default only in recordings with rotorsift:labels_complete, as clutter).
+        #[arg(long)]
+        unlabelled_as: Option<String>,
         /// Output format.
         #[arg(long, value_enum, default_value_t = Format::Table)]
         format: Format,
@@ -505,7 +509,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 for t in &a.tracks {
                     let p = clf.predict(&t.features, model.min_confidence)?;
                     let mut out = track_out(t);
-                    // A track labelled bird or clutter shows no rotor (INTERFACE.md: null
+                    // A track labelled bird or clutter shows no rotor (docs/output-format.md: null
                     // when no rotor is seen), whatever flash-like periodicity it carries.
                     if p.label == "bird" || p.label == "clutter" {
                         out.blade_flash_hz = None;
@@ -534,23 +538,41 @@ fn run(cli: Cli) -> Result<ExitCode> {
         Command::Evaluate {
             inputs,
             model,
+            unlabelled_as,
             format,
         } => {
             let clf = model.load()?;
             let (analyses, failed) = analyse_all(&inputs, model.channel, &clf.settings, true)?;
-            if !analyses.iter().any(|a| !a.meta.annotations.is_empty()) {
-                anyhow::bail!("no labelled targets to score: the recordings carry no annotations");
+            if unlabelled_as.is_none()
+                && !analyses
+                    .iter()
+                    .any(|a| !a.meta.annotations.is_empty() || a.meta.labels_complete)
+            {
+                anyhow::bail!("no labelled targets to score: the recordings carry no annotations (and none says rotorsift:labels_complete)");
             }
-            let ev = pipeline::classify::evaluate(&analyses, &clf, model.min_confidence)?;
+            let ev = pipeline::classify::evaluate(
+                &analyses,
+                &clf,
+                model.min_confidence,
+                unlabelled_as.as_deref(),
+            )?;
             let text = match format {
                 Format::Json => serde_json::to_string_pretty(&ev)? + "\n",
                 Format::Table => format!(
-                    "model {}: {} targets, {} detected, {} unmatched tracks\n\ntargets (rows true, columns predicted):\n{}",
+                    "model {}: {} targets, {} detected, {} unmatched tracks\n\ntargets (rows true, columns predicted):\n{}{}",
                     clf.name,
                     ev.targets,
                     ev.targets_detected,
                     ev.tracks_unmatched,
-                    report::scores::render(&ev.scores)
+                    if ev.targets == 0 {
+                        "(no labelled targets)\n".to_string()
+                    } else {
+                        report::scores::render(&ev.scores)
+                    },
+                    ev.false_alarms
+                        .as_ref()
+                        .map(|f| format!("\n{}", report::scores::render_false_alarms(f)))
+                        .unwrap_or_default()
                 ),
             };
             emit(&text)?;

@@ -197,7 +197,7 @@ pub fn expected_calibration_error(
         .sum())
 }
 
-/// The scores of `evaluate --format json` (INTERFACE.md): `classes`, `confusion`,
+/// The scores of `evaluate --format json` (docs/output-format.md): `classes`, `confusion`,
 /// `accuracy`, `per_class`, plus averages, `brier` and `ece` (null without
 /// probabilities).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -286,4 +286,24 @@ mod tests {
         assert!((e - 0.5).abs() < 1e-15);
         assert!(ConfusionMatrix::new(vec!["a".into()], &[0], &[1]).is_err());
     }
+}
+
+/// The false-alarm report of `evaluate`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FalseAlarms {
+    /// Recordings counted: those whose labels are complete (every recording with
+    /// `--unlabelled-as`).
+    pub recordings: usize,
+    /// Their total duration, s.
+    pub duration_s: f64,
+    /// Tracks in them that match no annotation.
+    pub false_tracks: usize,
+    /// False tracks per minute.
+    pub false_tracks_per_minute: f64,
+    /// False tracks per minute, by the class they were labelled.
+    pub false_tracks_per_minute_by_class: BTreeMap<String, f64>,
+    /// Tracks in them labelled rotorcraft that match no rotorcraft annotation.
+    pub false_rotorcraft: usize,
+    /// False rotorcraft tracks per hour of recording.
+    pub false_rotorcraft_per_hour: f64,
 }

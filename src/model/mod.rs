@@ -14,5 +14,5 @@ pub use dataset::Dataset;
 pub use file::{ModelFile, MODEL_FORMAT, MODEL_FORMAT_VERSION};
 pub use forest::{Bootstrap, ClassWeight, FeatureSampling, Forest, ForestParams};
 pub use metrics::{
-    expected_calibration_error, multiclass_brier, ClassScores, ConfusionMatrix, Scores,
+    expected_calibration_error, multiclass_brier, ClassScores, ConfusionMatrix, FalseAlarms, Scores,
 };

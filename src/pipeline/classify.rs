@@ -1,6 +1,6 @@
 //! Training, classification and evaluation on analysed recordings: builds the labelled
 //! dataset with the one match rule, holds out whole recordings, fits the forest, labels
-//! tracks with calibrated probabilities, and scores targets as shared/INTERFACE.md says.
+//! tracks with calibrated probabilities, and scores targets as docs/output-format.md says.
 
 use std::collections::BTreeMap;
 
@@ -9,10 +9,27 @@ use serde::Serialize;
 use super::{match_tracks, PipelineSettings, RecordingAnalysis};
 use crate::error::{Error, Result};
 use crate::features::names;
-use crate::model::{Dataset, Forest, ForestParams, ModelFile, Scores};
+use crate::model::{Dataset, FalseAlarms, Forest, ForestParams, ModelFile, Scores};
 
 /// The label of tracks whose confidence is under `--min-confidence`.
 pub const UNKNOWN: &str = "unknown";
+
+/// The class of a track that matches no annotation in a recording whose labels are complete
+/// (`rotorsift:labels_complete`): background.
+pub const BACKGROUND_CLASS: &str = "clutter";
+
+/// The class whose false tracks the false-alarm report counts per hour.
+pub const ALARM_CLASS: &str = "rotorcraft";
+
+/// The label an unmatched track of `meta` gets: `unlabelled_as` when given, else
+/// [`BACKGROUND_CLASS`] when the recording's labels are complete, else none (the track is
+/// left out and counted).
+pub fn unmatched_label<'a>(
+    meta: &crate::recording::RecordingMeta,
+    unlabelled_as: Option<&'a str>,
+) -> Option<&'a str> {
+    unlabelled_as.or(meta.labels_complete.then_some(BACKGROUND_CLASS))
+}
 
 /// Labelled feature rows of a set of analyses.
 #[derive(Debug, Clone, Default)]
@@ -24,15 +41,17 @@ pub struct LabelledRows {
     pub unmatched: usize,
 }
 
-/// Rows of every track that matches an annotation (or of every track, the unmatched ones
-/// labelled `unlabelled_as`).
+/// Rows of every track that matches an annotation, and of the unmatched ones that
+/// [`unmatched_label`] names (`unlabelled_as`, or background in recordings whose labels
+/// are complete).
 pub fn labelled_rows(analyses: &[RecordingAnalysis], unlabelled_as: Option<&str>) -> LabelledRows {
     let mut out = LabelledRows::default();
     for a in analyses {
         let spans: Vec<_> = a.tracks.iter().map(|t| t.span()).collect();
         let m = match_tracks(&spans, &a.meta.annotations, &a.meta.params);
+        let background = unmatched_label(&a.meta, unlabelled_as);
         for (t, mi) in a.tracks.iter().zip(m) {
-            let label = match (mi, unlabelled_as) {
+            let label = match (mi, background) {
                 (Some(i), _) => a.meta.annotations[i].label.clone(),
                 (None, Some(l)) => l.to_string(),
                 (None, None) => {
@@ -285,7 +304,8 @@ pub struct Prediction {
     pub probabilities: BTreeMap<String, f64>,
 }
 
-/// `evaluate`'s result (INTERFACE.md), plus track-level scores.
+/// `evaluate`'s result (the documented `evaluate --format json`), plus track-level scores
+/// and the false-alarm report.
 #[derive(Debug, Clone, Serialize)]
 pub struct Evaluation {
     #[serde(flatten)]
@@ -293,23 +313,37 @@ pub struct Evaluation {
     pub targets: usize,
     pub targets_detected: usize,
     pub tracks_unmatched: usize,
-    /// Scores over matched tracks (each track one sample), for comparison.
+    /// Scores over tracks (each track one sample): the matched ones, and the false tracks
+    /// with their background class.
     pub track_level: Option<Scores>,
+    /// False tracks, over the recordings where a track matching no annotation is known to
+    /// be background; `None` when there is none.
+    pub false_alarms: Option<FalseAlarms>,
 }
 
 /// Scores labelled recordings: each annotation is a target, detected when a track matches
-/// it, predicted as the duration-weighted mean of its tracks' probabilities.
+/// it, predicted as the duration-weighted mean of its tracks' probabilities. A track that
+/// matches no annotation, in a recording whose labels are complete (or in any with
+/// `unlabelled_as`), is a false track: it enters the track-level scores with its
+/// [`unmatched_label`] and the false-alarm report.
 pub fn evaluate(
     analyses: &[RecordingAnalysis],
     clf: &Classifier,
     min_confidence: f64,
+    unlabelled_as: Option<&str>,
 ) -> Result<Evaluation> {
     let model_classes = &clf.model.class_names;
     let mut classes: Vec<String> = model_classes.clone();
     for a in analyses {
-        for ann in &a.meta.annotations {
-            if !classes.contains(&ann.label) {
-                classes.push(ann.label.clone());
+        let names = a
+            .meta
+            .annotations
+            .iter()
+            .map(|ann| ann.label.as_str())
+            .chain(unmatched_label(&a.meta, unlabelled_as));
+        for name in names {
+            if !classes.iter().any(|c| c == name) {
+                classes.push(name.to_string());
             }
         }
     }
@@ -328,17 +362,49 @@ pub fn evaluate(
     let (mut targets, mut detected, mut unmatched) = (0usize, 0usize, 0usize);
     let (mut t_true, mut t_pred, mut t_prob) = (Vec::new(), Vec::new(), Vec::new());
     let (mut k_true, mut k_pred, mut k_prob) = (Vec::new(), Vec::new(), Vec::new());
+    let mut alarms = FalseAlarmCount::default();
     for a in analyses {
         let spans: Vec<_> = a.tracks.iter().map(|t| t.span()).collect();
         let m = match_tracks(&spans, &a.meta.annotations, &a.meta.params);
         let mut per_ann: Vec<(f64, Vec<f64>)> =
             vec![(0.0, vec![0.0; model_classes.len()]); a.meta.annotations.len()];
+        let background = unmatched_label(&a.meta, unlabelled_as);
+        if background.is_some() {
+            alarms.recordings += 1;
+            alarms.duration_s += a.meta.duration_s();
+        }
         for (t, mi) in a.tracks.iter().zip(&m) {
+            let label_of = |p: &[f64]| {
+                let best = crate::model::forest::argmax(p);
+                if p[best] < min_confidence {
+                    UNKNOWN.to_string()
+                } else {
+                    model_classes[best].clone()
+                }
+            };
             let Some(i) = *mi else {
                 unmatched += 1;
+                if let Some(bg) = background {
+                    let p = clf.probabilities(&t.features)?;
+                    let label = label_of(&p);
+                    alarms.false_tracks += 1;
+                    *alarms.by_class.entry(label.clone()).or_insert(0) += 1;
+                    if label == ALARM_CLASS {
+                        alarms.false_rotorcraft += 1;
+                    }
+                    k_true.push(idx(bg));
+                    k_pred.push(idx(&label));
+                    k_prob.push(expand(&p));
+                }
                 continue;
             };
             let p = clf.probabilities(&t.features)?;
+            if background.is_some()
+                && label_of(&p) == ALARM_CLASS
+                && a.meta.annotations[i].label != ALARM_CLASS
+            {
+                alarms.false_rotorcraft += 1;
+            }
             let w = (t.end_s - t.start_s).max(1e-6);
             per_ann[i].0 += w;
             for (acc, x) in per_ann[i].1.iter_mut().zip(&p) {
@@ -373,7 +439,9 @@ pub fn evaluate(
             t_prob.push(expand(&p));
         }
     }
-    let scores = Scores::compute(classes.clone(), &t_true, &t_pred, Some(&t_prob))?;
+    // No target (background-only recordings): a zero matrix, no calibration figures.
+    let probs = (!t_prob.is_empty()).then_some(&t_prob[..]);
+    let scores = Scores::compute(classes.clone(), &t_true, &t_pred, probs)?;
     let track_level = if k_true.is_empty() {
         None
     } else {
@@ -385,5 +453,37 @@ pub fn evaluate(
         targets_detected: detected,
         tracks_unmatched: unmatched,
         track_level,
+        false_alarms: alarms.report(),
     })
+}
+
+#[derive(Debug, Default)]
+struct FalseAlarmCount {
+    recordings: usize,
+    duration_s: f64,
+    false_tracks: usize,
+    by_class: BTreeMap<String, usize>,
+    false_rotorcraft: usize,
+}
+
+impl FalseAlarmCount {
+    fn report(self) -> Option<FalseAlarms> {
+        if self.recordings == 0 {
+            return None;
+        }
+        let minutes = (self.duration_s / 60.0).max(f64::MIN_POSITIVE);
+        Some(FalseAlarms {
+            recordings: self.recordings,
+            duration_s: self.duration_s,
+            false_tracks: self.false_tracks,
+            false_tracks_per_minute: self.false_tracks as f64 / minutes,
+            false_tracks_per_minute_by_class: self
+                .by_class
+                .into_iter()
+                .map(|(c, n)| (c, n as f64 / minutes))
+                .collect(),
+            false_rotorcraft: self.false_rotorcraft,
+            false_rotorcraft_per_hour: self.false_rotorcraft as f64 / (minutes / 60.0),
+        })
+    }
 }

@@ -2,7 +2,7 @@
 //! precision/recall/F1, calibration figures and feature importances.
 
 use super::Table;
-use crate::model::Scores;
+use crate::model::{FalseAlarms, Scores};
 
 /// The confusion matrix as a table.
 pub fn confusion_table(s: &Scores) -> Table {
@@ -53,6 +53,33 @@ pub fn render(s: &Scores) -> String {
         confusion_table(s).render(),
         per_class_table(s).render(),
         summary(s)
+    )
+}
+
+/// The false-alarm report in a few lines: false tracks per minute (all, and by the class
+/// they were labelled) and false rotorcraft tracks per hour.
+pub fn render_false_alarms(f: &FalseAlarms) -> String {
+    let by: Vec<String> = f
+        .false_tracks_per_minute_by_class
+        .iter()
+        .map(|(c, r)| format!("{c} {r:.2}"))
+        .collect();
+    format!(
+        "false alarms over {} fully labelled recording{} ({:.1} min): {} false track{} = {:.2} per minute{}\n\
+         false rotorcraft: {} = {:.1} per hour (tracks labelled rotorcraft that match no rotorcraft)\n",
+        f.recordings,
+        if f.recordings == 1 { "" } else { "s" },
+        f.duration_s / 60.0,
+        f.false_tracks,
+        if f.false_tracks == 1 { "" } else { "s" },
+        f.false_tracks_per_minute,
+        if by.is_empty() {
+            String::new()
+        } else {
+            format!(" (labelled: {})", by.join(", "))
+        },
+        f.false_rotorcraft,
+        f.false_rotorcraft_per_hour,
     )
 }
 
