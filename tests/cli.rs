@@ -1,7 +1,7 @@
 //! Integration tests of the `rotorsift` binary as a new user meets it: help and version,
 //! errors on missing and malformed inputs, usage errors, the simulator's determinism, and
 //! the JSON layouts of `info`, `detect`, `classify` and `evaluate` from
-//! /work/shared/INTERFACE.md (the outside contract). Every recording is generated at test
+//! docs/recording-format.md and docs/output-format.md (the outside contract). Every recording is generated at test
 //! time by `rotorsift simulate` from a small scene written into a temporary directory.
 //!
 //! Sources of the expected values are named beside each check:
@@ -32,7 +32,7 @@ const SUBCOMMANDS: [&str; 9] = [
 // ---------------------------------------------------------------------------------------
 
 /// `--help` of the binary names every subcommand; each subcommand's `--help` exits 0 and
-/// names its key options (INTERFACE.md §2: "Every subcommand has `--help`").
+/// names its key options (docs/output-format.md: "Every subcommand has `--help`").
 #[test]
 fn help_names_subcommands_and_their_key_options() {
     let top = ok(&run(&["--help"]));
@@ -159,7 +159,7 @@ fn corrupt_copy(
 
 /// Each corruption is refused by `info` and `detect` with one line naming the recording
 /// and what is wrong, exit 1; in a batch with a good recording the good one is still
-/// reported on stdout and the exit status is 1 (INTERFACE.md §1: datatypes other than the
+/// reported on stdout and the exit status is 1 (docs/recording-format.md: datatypes other than the
 /// listed ones "refused with a clear message"; the extension "must" be present;
 /// `total_samples = M * N`).
 #[test]
@@ -177,7 +177,7 @@ fn malformed_recordings_are_refused_one_line_each() {
         d.truncate(d.len() - 3);
         d
     });
-    // Truncated by one whole sample: no longer M * N samples (INTERFACE.md §1).
+    // Truncated by one whole sample: no longer M * N samples (docs/recording-format.md).
     let trunc_chirp = corrupt_copy(&good, &bad, "trunc-chirp", id, |mut d| {
         d.truncate(d.len() - 4);
         d
@@ -381,7 +381,7 @@ fn io_error_is_stated_once() {
 // ---------------------------------------------------------------------------------------
 
 /// `info --format json` on an FMCW (cf32_le) and a range-profile (ci16_le) recording:
-/// INTERFACE.md's keys, with the derived figures computed here from the scene's radar.
+/// the keys of docs/output-format.md, with the derived figures computed here from the scene's radar.
 #[test]
 fn info_json_layout_and_derived_figures() {
     let tmp = tempfile::tempdir().unwrap();
@@ -550,7 +550,7 @@ const TRACK_KEYS: [&str; 11] = [
     "tip_speed_mps",
 ];
 
-/// Checks one track object against INTERFACE.md's "detect --format json" layout;
+/// Checks one track object against the `detect --format json` layout of docs/output-format.md;
 /// `duration` bounds its times.
 fn check_detect_track(t: &Value, duration: f64) {
     for key in TRACK_KEYS {
@@ -583,7 +583,7 @@ fn check_detect_track(t: &Value, duration: f64) {
 
 /// One receding and one approaching rotorcraft, each with a strong stationary return:
 /// each run gives a track at the true median range (within two cells) with the right
-/// velocity sign (INTERFACE.md: positive = receding) within 0.5 m/s, and no track at the
+/// velocity sign (docs/output-format.md: positive = receding) within 0.5 m/s, and no track at the
 /// stationary return's range (a stationary point has zero Doppler and is cancelled:
 /// Richards 2014, MTI cancellers null f_D = 0).
 #[test]
@@ -941,7 +941,7 @@ fn training_scene() -> String {
 
 /// Trains a small model, then checks `classify --format json` (label, confidence,
 /// probabilities: a distribution whose max is the confidence), `--min-confidence`
-/// (labels below it become `unknown`) and `evaluate --format json` (INTERFACE.md keys;
+/// (labels below it become `unknown`) and `evaluate --format json` (docs/output-format.md keys;
 /// confusion matrix sums to targets_detected; per-class figures from the matrix).
 #[test]
 fn train_then_classify_and_evaluate() {
@@ -1042,7 +1042,7 @@ fn train_then_classify_and_evaluate() {
     check_evaluate(&v, 8);
 }
 
-/// INTERFACE.md "evaluate --format json": keys, a square confusion matrix in the order of
+/// docs/output-format.md "evaluate --format json": keys, a square confusion matrix in the order of
 /// `classes` summing to targets_detected, accuracy = trace / total, per-class precision,
 /// recall, F1 and support from the matrix (van Rijsbergen 1979; scikit-learn's
 /// definitions).
@@ -1187,7 +1187,7 @@ fn bad_model_files_are_refused() {
 
 /// `classify` without `--model` uses the built-in model (models/default.json, embedded at
 /// build time): exit 0, a `label` column, a label from the built-in vocabulary
-/// (INTERFACE.md §1: rotorcraft, bird, clutter).
+/// (docs/recording-format.md: rotorcraft, bird, clutter).
 #[test]
 fn classify_with_builtin_model() {
     let tmp = tempfile::tempdir().unwrap();
@@ -1355,7 +1355,7 @@ fn plot_writes_each_kind_and_refuses_bad_requests() {
     assert_one_error(&o, 1, &["/no/such"]);
 }
 
-/// `audit` writes DIR/index.html (INTERFACE.md §2) whose every picture exists; with a
+/// `audit` writes DIR/index.html (docs/output-format.md) whose every picture exists; with a
 /// confidence threshold above 1 every track is listed.
 #[test]
 fn audit_writes_an_index_with_its_pictures() {

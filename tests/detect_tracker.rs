@@ -174,7 +174,7 @@ fn false_detections_give_no_confirmed_tracks() {
     assert!(tracks.is_empty(), "{:?}", summary(&tracks));
 }
 
-// Hovering: radial speed under 0.5 m/s (INTERFACE.md). A hovering target at 60 m with
+// Hovering: radial speed under 0.5 m/s (docs/output-format.md). A hovering target at 60 m with
 // velocity noise and 10% of its points taken from a blade line at +15 m/s is hovering; a
 // 5 m/s mover is not.
 #[test]

@@ -121,7 +121,7 @@ fn binary_brier_is_half_the_multiclass_form() {
     );
 }
 
-/// The JSON keys of INTERFACE.md's `evaluate --format json` are present with their types.
+/// The JSON keys of the `evaluate --format json` of docs/output-format.md are present with their types.
 #[test]
 fn scores_json_has_interface_keys() {
     let s = Scores::compute(

@@ -1,6 +1,6 @@
 //! Recordings written by the reference `sigmf` Python package (PyPI, version in
 //! tests/fixtures/sigmf/expected.json; script tests/reference/make_sigmf_fixtures.py),
-//! following shared/INTERFACE.md alone, are read with the right derived figures and samples;
+//! following docs/recording-format.md alone, are read with the right derived figures and samples;
 //! malformed ones are refused with one clear line naming the key.
 
 use std::path::{Path, PathBuf};

@@ -78,11 +78,11 @@ datatype = "cf32_le"
 // ---------------------------------------------------------------- FMCW relations
 
 /// Standard FMCW relations (Richards, Fundamentals of Radar Signal Processing, 2nd ed.;
-/// shared/DESIGN.md §3): a point target at range R lands in range-DFT bin
+/// common practice): a point target at range R lands in range-DFT bin
 /// 2 S R / c * N / fs, and its slow-time phase rotates at the Doppler 2 v / lambda.
 /// Here S = 100 MHz / 32 us = 3.125e12 Hz/s, fs 2 MHz, N 64: bin of R = R / 1.49896 m;
 /// R = 30 m -> bin 20.01 -> 20; R = 60 m -> 40.03 -> 40; v = +3 m/s at 24 GHz
-/// (lambda 0.012491 m) -> f_D = +480.3 Hz (receding: positive, shared/INTERFACE.md).
+/// (lambda 0.012491 m) -> f_D = +480.3 Hz (receding: positive, docs/recording-format.md).
 #[test]
 fn fmcw_point_target_bin_and_doppler() {
     for (r0, want_bin, v) in [(30.0, 20usize, 3.0), (60.0, 40, -2.0)] {
@@ -112,7 +112,7 @@ motion = {{ type = "linear", start = [{r0}, 0, 0], velocity = [{v}, 0, 0] }}
         );
         let (x, _, _) = run(&toml, 5);
         let n = 64;
-        // naive forward DFT (kernel exp(-j 2 pi k n / N), shared/INTERFACE.md)
+        // naive forward DFT (kernel exp(-j 2 pi k n / N), docs/recording-format.md)
         let dft = |chirp: &[Complex32], k: usize| -> Complex64 {
             chirp
                 .iter()
@@ -207,7 +207,7 @@ fn radar_equation_matches_mahafza_from_samples() {
     }
 }
 
-/// Common practice (shared/DESIGN.md §3): a small drone-sized target (-20 dBsm) at ~100 m
+/// Common practice: a small drone-sized target (-20 dBsm) at ~100 m
 /// is seen by a ~100 mW, 20 dBi, 24 GHz FMCW radar after range and Doppler integration.
 /// Hand arithmetic (Mahafza Eq. 1.56): Pt 0.1 W, G 20+20 dBi, lambda 0.012491 m, F 6 dB,
 /// L 3 dB, B_n = fs = 2 MHz, R = 66 cells * 1.49896 m = 98.93 m:
@@ -569,7 +569,7 @@ fn bits(x: &[Complex32]) -> Vec<u32> {
 }
 
 /// Determinism: the same seed gives the same bytes, another seed other bytes (our
-/// contract, shared/DESIGN.md §2 "randomness is passed in, seeded").
+/// contract: randomness is passed in, seeded; DEVELOPERS.md).
 #[test]
 fn deterministic_for_a_seed() {
     let (a, anns_a, _) = run(MIXED, 9);
@@ -594,7 +594,7 @@ fn deterministic_for_a_seed() {
     );
 }
 
-/// The written recording reads back with the project's reader (SigMF 1.x, INTERFACE.md
+/// The written recording reads back with the project's reader (SigMF 1.x, docs/recording-format.md
 /// §1): whole chirps, three annotations (stationary not annotated by default), labels,
 /// target ids, truth fields, site, and ci16 noise at the documented 1/300 of full scale.
 #[test]
@@ -690,8 +690,8 @@ fn approach_annotation_starts_at_coverage() {
     assert_eq!(a.truth_bool("hovering"), Some(false));
 }
 
-/// Scene errors name the file, the key and the bad value (shared/DESIGN.md §2: parameters
-/// validated in one place, errors name the value and the allowed range).
+/// Scene errors name the file, the key and the bad value (parameters
+/// validated in one place, errors name the value and the allowed range; DEVELOPERS.md).
 #[test]
 fn scene_errors_name_file_and_key() {
     let dir = tempfile::tempdir().unwrap();

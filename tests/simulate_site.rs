@@ -213,7 +213,7 @@ datatype = "cf32_le"
 "#;
 
 /// The FMCW transmitter-to-receiver leakage is a beat tone of the leakage range,
-/// exp(+j 2 pi (2 S R / c) n / fs) (the INTERFACE signal convention; standard FMCW beat
+/// exp(+j 2 pi (2 S R / c) n / fs) (the signal convention of docs/recording-format.md; standard FMCW beat
 /// relation, Richards), at its stated per-sample level (20 dB: power 100 over unit
 /// noise); the DC offset a constant of its stated level (10 dB: 10). Averaging 2000 chirps
 /// leaves both and 1/2000 of the noise.

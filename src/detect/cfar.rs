@@ -583,7 +583,7 @@ mod tests {
     use super::*;
     use ndarray::Array2;
 
-    // Check values: DESIGN.md §3 "CFAR", computed from Richards, *Fundamentals of Radar
+    // Check values computed from Richards, *Fundamentals of Radar
     // Signal Processing*, 2nd ed. (2014), §6.5.3: alpha = N (Pfa^(-1/N) - 1).
     // Hand arithmetic for the first: 1e-3^(-1/20) = exp(6.907755/20) = exp(0.345388)
     // = 1.412538; alpha = 20 * 0.412538 = 8.2508.
@@ -603,7 +603,7 @@ mod tests {
         }
     }
 
-    // Rohling (1983) / Richards 2nd ed. §6.5.6 worked example (DESIGN.md): N 20, k 15,
+    // Rohling (1983) / Richards 2nd ed. §6.5.6 worked example: N 20, k 15,
     // alpha 6.857 gives Pfa ≈ 1e-3.
     #[test]
     fn os_worked_example() {

@@ -255,7 +255,7 @@ impl Track {
     }
 }
 
-/// Radial speed under which a track counts as hovering, m/s (INTERFACE.md).
+/// Radial speed under which a track counts as hovering, m/s (docs/output-format.md).
 pub const HOVER_SPEED_MPS: f64 = 0.5;
 
 #[derive(Debug, Clone, Copy, PartialEq)]

@@ -68,11 +68,17 @@ pub fn names() -> Vec<String> {
     FEATURES.iter().map(|f| f.name.to_string()).collect()
 }
 
-/// The feature table in Markdown (for the README).
+/// The feature table in Markdown (for the README); a `|` inside a meaning (an absolute
+/// value) is escaped so it does not end the table cell.
 pub fn markdown_table() -> String {
     let mut s = String::from("| feature | unit | meaning |\n| --- | --- | --- |\n");
     for f in FEATURES {
-        s.push_str(&format!("| `{}` | {} | {} |\n", f.name, f.unit, f.meaning));
+        s.push_str(&format!(
+            "| `{}` | {} | {} |\n",
+            f.name,
+            f.unit,
+            f.meaning.replace('|', "\\|")
+        ));
     }
     s
 }

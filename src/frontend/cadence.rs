@@ -200,7 +200,7 @@ mod tests {
 
     // Source: CVD definition (Björklund et al., 2012, from memory: FFT along time of each
     // Doppler row of the spectrogram magnitude). A Doppler row modulated at 6 Hz (a wingbeat
-    // rate, DESIGN.md §3) sampled at 100 frames/s for 200 frames: the peak is at bin
+    // rate, common practice) sampled at 100 frames/s for 200 frames: the peak is at bin
     // 6 / (100 / 200) = 12, i.e. 6 Hz.
     #[test]
     fn six_hz_modulation_peaks_at_six_hz() {

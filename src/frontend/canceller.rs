@@ -521,7 +521,7 @@ mod tests {
     }
 
     // Source: Richards, 2nd ed., Eqs. 5.57-5.58 with the Gaussian rho(k); the dB values are
-    // those of DESIGN.md §3, computed from the formula (K).
+    // computed from the formula.
     #[test]
     fn analytic_improvement_factor_reproduces_design_values() {
         for (s, i2, i3) in [(0.05, 13.17, 23.48), (0.01, 27.05, 51.10)] {
@@ -556,7 +556,7 @@ mod tests {
 
     // Source: improvement factor = (S_out/C_out)/(S_in/C_in) averaged over target Doppler,
     // = noise power gain x C_in / C_out (Richards, 2nd ed., §5.4.3). Measured on simulated
-    // Gaussian clutter and compared with the DESIGN.md values (K). Tolerance 0.5 dB: the
+    // Gaussian clutter and compared with the values of the formula. Tolerance 0.5 dB: the
     // residue of 4 x 65536 chirps with sigma_f/PRF = 0.05 has roughly 4 x 65536 x 0.1
     // ~ 2.6e4 independent samples, so its power is known to ~1% (0.04 dB); 0.5 dB leaves
     // room for f32 rounding of the tiny three-pulse residue and the sampled spectrum.

@@ -288,7 +288,7 @@ mod tests {
 
     // Periodic spectrum: equal lines every 250 Hz (as rotor lines spaced N f_rot, Chen 2011
     // ch. 4) sampled at 8 kHz; the cepstrogram of a 256-point spectrogram peaks at quefrency
-    // 1 / 250 Hz = 4 ms = 32 samples in every frame (DESIGN.md §3).
+    // 1 / 250 Hz = 4 ms = 32 samples in every frame.
     #[test]
     fn cepstrogram_finds_line_spacing() {
         let fs = 8000.0;

@@ -192,7 +192,7 @@ mod tests {
         }
     }
 
-    // Known answer (INTERFACE.md signal convention): a target at beat bin k0 receding with
+    // Known answer (signal convention of docs/recording-format.md): a target at beat bin k0 receding with
     // Doppler f0 -> s[m, n] = exp(+j 2 pi k0 n / N) exp(+j 2 pi f0 m T); after the range
     // FFT and the Doppler FFT the peak sits at range bin k0 and shifted column
     // M/2 + f0 M / PRF. f0 = +1875 Hz at PRF 8 kHz, M 64 -> column 32 + 15 = 47; negative

@@ -2,7 +2,7 @@
 //! range-Doppler maps, normalised noise floors and the time-frequency pictures (STFT,
 //! cepstrogram, cadence-velocity diagram) the later stages read.
 //!
-//! Conventions shared by every file here (see `INTERFACE.md`): the range FFT is the forward
+//! Conventions shared by every file here (see `docs/recording-format.md`): the range FFT is the forward
 //! DFT (kernel `exp(-j 2 pi k n / N)`), Doppler `f_D = 2 v / lambda` with positive =
 //! receding, powers are linear `|X|^2` unless a name says `_db`, and no transform scales its
 //! output unless its doc says so.

@@ -16,7 +16,7 @@ use crate::error::{ensure, Result};
 /// exp(-j 2 pi k n / N)`, **no scaling** (neither 1/N nor window-gain correction: a tone of
 /// amplitude A on bin k gives `|X[k]| = A * sum(w)`), bins in natural order 0..N-1 with bin
 /// k = range k × range cell (the beat signal of a target at positive range has a positive
-/// frequency, see INTERFACE.md). Bins above N/2 hold negative beat frequencies (not a
+/// frequency, see docs/recording-format.md). Bins above N/2 hold negative beat frequencies (not a
 /// physical range for a real dechirp; kept so the buffer stays in place).
 #[derive(Clone)]
 pub struct RangePlan {
@@ -197,7 +197,7 @@ mod tests {
         }
     }
 
-    // Known answer from the INTERFACE.md convention: beat exp(+j 2 pi k0 n / N) of a target
+    // Known answer from the convention of docs/recording-format.md: beat exp(+j 2 pi k0 n / N) of a target
     // at range bin k0 -> all energy in bin k0, |X| = N (rectangular) = sum(w).
     #[test]
     fn point_target_lands_in_its_range_bin() {

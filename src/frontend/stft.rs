@@ -322,7 +322,7 @@ mod tests {
         StftParams::new(Window::Hann, 64, 48, 128, Scaling::Psd).fs(500.0)
     }
 
-    // Each error names the value and the allowed range (DESIGN.md §2, parameters validated
+    // Each error names the value and the allowed range (parameters validated
     // in one place); the bounds are scipy's (`noverlap must be less than nperseg`, `nfft
     // must be greater than or equal to nperseg`, scipy.signal._spectral_helper).
     #[test]

@@ -1,5 +1,5 @@
 //! The audit: picks the tracks a person should look at — misclassified (against the
-//! annotation they match, INTERFACE.md §1), low-confidence, or doubtful between bird and
+//! annotation they match, docs/recording-format.md), low-confidence, or doubtful between bird and
 //! rotorcraft — and draws each one's pictures. `report::audit` writes the HTML page.
 
 use std::collections::BTreeMap;

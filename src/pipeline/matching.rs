@@ -1,4 +1,4 @@
-//! The one track/label match rule of shared/INTERFACE.md §1, used by training, evaluation
+//! The one track/label match rule of docs/recording-format.md, used by training, evaluation
 //! and the audit: a track matches an annotation when at least half of the track's duration
 //! lies inside the annotation's interval and the track's median range lies inside
 //! `[range_min_m - one range cell, range_max_m + one range cell]`.
@@ -107,7 +107,7 @@ mod tests {
 
     #[test]
     fn half_the_duration_and_one_cell_of_range() {
-        // INTERFACE.md §1 worked by hand: annotation 1.0-2.0 s, 50-60 m, cell 2 m.
+        // docs/recording-format.md worked by hand: annotation 1.0-2.0 s, 50-60 m, cell 2 m.
         let p = params();
         let a = ann(1000, 1000, 50.0, 60.0);
         let t = |s, e, r| TrackSpan {

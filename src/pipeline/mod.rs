@@ -48,7 +48,7 @@ pub struct AnalysedTrack {
 }
 
 impl AnalysedTrack {
-    /// True when the body's radial speed is under 0.5 m/s (INTERFACE.md).
+    /// True when the body's radial speed is under 0.5 m/s (docs/output-format.md).
     pub fn hovering(&self) -> bool {
         self.kinematics.body_velocity_mps.abs() < HOVER_SPEED_MPS
     }
@@ -114,7 +114,7 @@ fn median(x: &[f64]) -> f64 {
     }
 }
 
-/// Radial speed under which a track counts as hovering, m/s (INTERFACE.md).
+/// Radial speed under which a track counts as hovering, m/s (docs/output-format.md).
 pub const HOVER_SPEED_MPS: f64 = 0.5;
 
 /// The body's radial velocity of a track, m/s. The per-CPI Doppler readings are the body

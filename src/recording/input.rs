@@ -1,4 +1,4 @@
-//! Resolves the INPUT arguments of every command (INTERFACE.md §1): a `.sigmf-meta` path,
+//! Resolves the INPUT arguments of every command (docs/recording-format.md): a `.sigmf-meta` path,
 //! a `.sigmf-data` path, the base path without extension, or a directory (every
 //! `*.sigmf-meta` below it, recursively, sorted by path).
 

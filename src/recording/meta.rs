@@ -1,5 +1,5 @@
 //! The metadata of one recording: the SigMF `.sigmf-meta` JSON with the `rotorsift`
-//! extension (shared/INTERFACE.md §1), parsed and validated key by key. Every refusal names
+//! extension (docs/recording-format.md), parsed and validated key by key. Every refusal names
 //! the file, the key, the bad value and what was expected.
 
 use std::path::{Path, PathBuf};
@@ -53,7 +53,7 @@ impl DataType {
     }
 }
 
-/// One label: a SigMF annotation (INTERFACE.md §1, "Labels").
+/// One label: a SigMF annotation (docs/recording-format.md, "Labels").
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Annotation {
     /// First chirp of the interval.

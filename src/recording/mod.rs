@@ -1,4 +1,4 @@
-//! Radar recordings: SigMF with the `rotorsift` extension (shared/INTERFACE.md §1).
+//! Radar recordings: SigMF with the `rotorsift` extension (docs/recording-format.md).
 //! [`RecordingMeta`] parses and validates the metadata, [`ChirpReader`] streams blocks of
 //! chirps, [`RecordingWriter`] writes recordings atomically, [`RadarParams`] holds the
 //! radar settings and their derived figures.

@@ -1,7 +1,7 @@
 //! `RadarParams`: the radar settings a recording carries and the quantities derived from
 //! them (wavelength, range of a bin, range cell, Doppler to velocity, unambiguous velocity,
 //! blind speeds). Relations: standard FMCW and pulse-Doppler relations (Richards,
-//! *Fundamentals of Radar Signal Processing*, 2nd ed., ch. 4 and 5; shared/INTERFACE.md).
+//! *Fundamentals of Radar Signal Processing*, 2nd ed., ch. 4 and 5; docs/recording-format.md).
 
 use serde::{Deserialize, Serialize};
 

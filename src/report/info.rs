@@ -1,5 +1,5 @@
 //! `rotorsift info`: what each recording holds — radar settings, derived figures,
-//! duration, labels per class (INTERFACE.md, "info --format json").
+//! duration, labels per class (docs/output-format.md, "info --format json").
 
 use std::collections::BTreeMap;
 

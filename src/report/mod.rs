@@ -18,6 +18,6 @@ pub enum Format {
     /// Aligned text columns for people.
     #[default]
     Table,
-    /// JSON as shared/INTERFACE.md defines it.
+    /// JSON as docs/output-format.md defines it.
     Json,
 }

@@ -1,4 +1,4 @@
-//! Track listings of `detect` and `classify` (INTERFACE.md: `classify --format json`;
+//! Track listings of `detect` and `classify` (docs/output-format.md: `classify --format json`;
 //! `detect --format json` is the same layout without the model's fields), and their tables.
 
 use std::collections::BTreeMap;

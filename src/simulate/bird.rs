@@ -261,7 +261,7 @@ impl Bird {
 mod tests {
     use super::*;
 
-    /// Pennycuick (1996) wingbeat formula against the sizes of shared/DESIGN.md §3 (from
+    /// Pennycuick (1996) wingbeat formula against common bird sizes (from
     /// memory): roughly 15 Hz for a 30 g bird, 3.5 Hz for a 1 kg gull.
     #[test]
     fn pennycuick_magnitudes() {

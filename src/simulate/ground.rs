@@ -7,7 +7,7 @@
 //! scintillates slowly on its own ([`super::scintillation`]).
 //!
 //! The cells lie on the range grid, so an FMCW chirp takes them all with one inverse FFT
-//! (cell k's beat tone is exp(+j 2 pi k n / N), INTERFACE convention) instead of one tone each.
+//! (cell k's beat tone is exp(+j 2 pi k n / N), the signal convention of docs/recording-format.md) instead of one tone each.
 
 use std::sync::Arc;
 

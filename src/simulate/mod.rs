@@ -72,7 +72,7 @@ fn build_sources(scene: &Scene, ctx: &Ctx, seed: u64) -> Vec<Box<dyn Source>> {
 /// Simulates one run with `seed`, handing whole chirps to `sink` in blocks of up to
 /// [`BLOCK_CHIRPS`] chirps (chirp-major, sample n of chirp m at `m*N + n`, noise units:
 /// unit-variance complex white noise, returns of amplitude sqrt(per-sample SNR)).
-/// Returns one annotation per annotated object (INTERFACE.md §1, "Labels").
+/// Returns one annotation per annotated object (docs/recording-format.md, "Labels").
 /// The same scene and seed give the same samples, bit for bit.
 pub fn simulate(
     scene: &Scene,

@@ -74,8 +74,8 @@ mod tests {
 
     /// Mahafza, Radar Systems Analysis and Design Using MATLAB, Eq. 1.56 worked example:
     /// Pt 1.5 MW, 5.6 GHz, G 45 dB, T0 290 K, B 5 MHz, F 3 dB, L 6 dB, sigma 0.1 m^2:
-    /// 35.43 dB at 25 km, 16.35 dB at 75 km, 2.65 dB at 165 km (computed from the formula,
-    /// shared/DESIGN.md §3 (K)). Wavelength with c = 299 792 458 m/s differs from c = 3e8 by
+    /// 35.43 dB at 25 km, 16.35 dB at 75 km, 2.65 dB at 165 km (computed from the formula
+    /// with T0 in K). Wavelength with c = 299 792 458 m/s differs from c = 3e8 by
     /// 0.006 dB, inside the 0.01 dB tolerance.
     #[test]
     fn mahafza_worked_example() {

@@ -1,6 +1,6 @@
 //! Multirotor returns: a point body plus, per rotor, N blades each given by Chen's closed
 //! form for a rigid rotating line (Chen, *The Micro-Doppler Effect in Radar*, 2011, ch. 4;
-//! Chen & Ling 2002 Eq. 8.19), with the sign of shared/INTERFACE.md (exp(+j 4 pi R/lambda)).
+//! Chen & Ling 2002 Eq. 8.19), with the sign of docs/recording-format.md (exp(+j 4 pi R/lambda)).
 
 use std::f64::consts::PI;
 
@@ -245,7 +245,7 @@ mod tests {
     }
 
     /// Flash rates: N f for even N, 2 N f for odd N (Chen 2011; odd rule from memory);
-    /// shared/DESIGN.md drone example: 2 blades at 90 rev/s flash at 180 Hz.
+    /// a common drone example: 2 blades at 90 rev/s flash at 180 Hz.
     #[test]
     fn flash_rates() {
         assert_eq!(blade_flash_hz(2, 90.0), 180.0);

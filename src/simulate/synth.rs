@@ -135,7 +135,7 @@ mod tests {
     use crate::recording::RangeAxis;
 
     /// The FMCW tone equals exp(+j 2 pi (2 S R / c) n / fs) sample by sample
-    /// (shared/INTERFACE.md signal convention; Richards, FMCW beat relation).
+    /// (the signal convention of docs/recording-format.md; Richards, FMCW beat relation).
     #[test]
     fn fmcw_tone_matches_direct_formula() {
         let p = RadarParams {

@@ -1,6 +1,6 @@
 //! Helpers of the command-line tests: running the binary, writing small scenes into a
 //! temporary directory, simulating them, and checking the one-line error convention of
-//! INTERFACE.md §2 ("errors go to stderr with a non-zero exit status and never as a panic").
+//! docs/output-format.md ("errors go to stderr with a non-zero exit status and never as a panic").
 
 #![allow(dead_code)]
 

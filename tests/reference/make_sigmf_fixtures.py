@@ -1,6 +1,6 @@
 #!/usr/bin/env python3
 """Writes small SigMF recordings with the reference `sigmf` Python package (PyPI), following
-shared/INTERFACE.md alone, plus expected.json with the figures rotorsift must derive.
+docs/recording-format.md alone, plus expected.json with the figures rotorsift must derive.
 Run: pip install sigmf numpy; python3 tests/reference/make_sigmf_fixtures.py
 The Rust test tests/recording_sigmf.rs reads the committed output; cargo test needs no Python.
 """
@@ -16,7 +16,7 @@ OUT = os.path.join(os.path.dirname(__file__), "..", "fixtures", "sigmf")
 
 
 def beat(n_chirps, n, fs, slope, T, fc, r0, v, amp=0.5):
-    """INTERFACE.md signal convention for one point scatterer:
+    """signal convention of docs/recording-format.md for one point scatterer:
     s[m, n] = A exp(+j 2 pi (2 S R / c) n / fs) exp(+j 4 pi R(t_m) / lambda)."""
     lam = C / fc
     m = np.arange(n_chirps)[:, None]
