@@ -5,7 +5,7 @@ recordings' labels, split into clear and faint targets.
 Usage: rotorsift classify DIR --model M.json --format json > labels.json
        python3 scripts/classification_report.py labels.json [more.json ...]
 
-A target is an annotation; its tracks are those matching it (shared/INTERFACE.md §1: at
+A target is an annotation; its tracks are those matching it (docs/recording-format.md: at
 least half the track's duration inside the interval, median range within the window +-
 one cell); its predicted class is the duration-weighted mean of its tracks' probabilities
 (as `rotorsift evaluate` scores). "Clear" targets follow the project's definition (see

@@ -4,7 +4,7 @@
 Usage: rotorsift detect DIR --format json > tracks.json
        python3 scripts/detection_report.py tracks.json
 
-A target (annotation) is detected when a track matches it (shared/INTERFACE.md §1: at least
+A target (annotation) is detected when a track matches it (docs/recording-format.md: at least
 half the track's duration inside the interval, median range within the window +- one cell).
 "Clear" targets follow the project's definition: moving rotorcraft with body SNR >= 15 dB
 and blades >= 10 dB, hovering rotorcraft with blades >= 12 dB, birds with body SNR >= 15 dB

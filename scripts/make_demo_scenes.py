@@ -1,40 +1,73 @@
 #!/usr/bin/env python3
 """Writes the labelled demo's scene files, labelled-demo/scenes/run-*.toml, reproducibly
-(python stdlib only, fixed seed). Every scene is one run of the fictional Harrowmere Point
-perimeter radar (see labelled-demo/README.md). Usage: scripts/make_demo_scenes.py [OUT_DIR]
+(python stdlib only, fixed seed). The fictional Harrowmere Point station and its visitors
+(see labelled-demo/README.md) watch the perimeter with a family of radars: carriers 9-79
+GHz, chirp rates 2-30 kHz, FMCW and range-profile waveforms, 64-512 samples a chirp. Every
+run is over a real site's stationary background (scripts/site_clutter.py) unless it is one
+of the clean-site runs, and says rotorsift:labels_complete (every target that moves or
+hovers is annotated). The `hold-out` radars never train the built-in model: their runs
+are the shipped recordings and the unseen-radar check.
+
+Usage: scripts/make_demo_scenes.py [OUT_DIR]
 """
 import math
 import os
 import random
 import sys
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import site_clutter as site  # noqa: E402
+
 C = 299_792_458.0
 SITE = "Harrowmere Point coastal research station (fictional)"
 
-# The three radar configurations. `cover` is the range interval the targets use.
+
+def fmcw(carrier, n, t_s, cell_m):
+    """An FMCW table: ramp 80 % of the chirp interval, fs = N / ramp, B = c / (2 cell)."""
+    ramp = 0.8 * t_s
+    return dict(waveform="fmcw-beat", carrier_hz=carrier, samples_per_chirp=n,
+                chirp_interval_s=t_s, sample_rate_hz=round(n / ramp, 3),
+                sweep_bandwidth_hz=round(C / (2 * cell_m), 1), sweep_duration_s=ramp)
+
+
+def profile(carrier, n, t_s, cell_m, start_m):
+    return dict(waveform="range-profile", carrier_hz=carrier, samples_per_chirp=n,
+                chirp_interval_s=t_s, range_cell_m=cell_m, range_start_m=start_m)
+
+
+# The radar family. `cover` is the range interval targets use; `snr` the integrated body
+# SNR (dB, range FFT x 256-chirp CPI) of a -15 dBsm rotorcraft at 70 % of `cover`, which
+# sets the transmit power. `role`: "train" radars make the built-in model, "hold-out"
+# radars are kept out of it.
 RADARS = {
-    "k24": dict(
-        title="24 GHz FMCW perimeter sensor",
-        table=dict(waveform="fmcw-beat", carrier_hz=24.0e9, samples_per_chirp=64,
-                   chirp_interval_s=50e-6, sample_rate_hz=2.0e6, sweep_bandwidth_hz=100e6,
-                   sweep_duration_s=32e-6, transmit_power_w=0.1, tx_gain_dbi=20.0,
-                   rx_gain_dbi=20.0, noise_figure_db=8.0, losses_db=2.0, datatype="ci16_le",
-                   phase_jitter_rad=0.002),
-        duration=1.5, cover=(12.0, 88.0), runs=36, tip=(40.0, 62.0)),
-    "k77": dict(
-        title="77 GHz short-range FMCW sensor",
-        table=dict(waveform="fmcw-beat", carrier_hz=77.0e9, samples_per_chirp=64,
-                   chirp_interval_s=16e-6, sample_rate_hz=5.0e6, sweep_bandwidth_hz=250e6,
-                   sweep_duration_s=12.8e-6, transmit_power_w=0.01, tx_gain_dbi=22.0,
-                   rx_gain_dbi=22.0, noise_figure_db=10.0, losses_db=2.0, datatype="ci16_le"),
-        duration=1.5, cover=(6.0, 35.0), runs=20, tip=(40.0, 62.0)),
-    "x94": dict(
-        title="X-band range-profile surveillance radar",
-        table=dict(waveform="range-profile", carrier_hz=9.4e9, samples_per_chirp=64,
-                   chirp_interval_s=100e-6, range_cell_m=3.0, range_start_m=30.0,
-                   transmit_power_w=50.0, tx_gain_dbi=28.0, rx_gain_dbi=28.0,
-                   noise_figure_db=4.0, losses_db=3.0, datatype="ci16_le"),
-        duration=2.0, cover=(45.0, 210.0), runs=36, tip=(40.0, 78.0)),
+    "k24": dict(title="24 GHz FMCW perimeter sensor", t=fmcw(24.0e9, 64, 50e-6, 1.5),
+                gain=20.0, nf=8.0, cover=(12.0, 88.0), snr=34.0, role="train"),
+    "k77": dict(title="77 GHz short-range FMCW sensor", t=fmcw(77.0e9, 128, 33e-6, 0.6),
+                gain=22.0, nf=10.0, cover=(6.0, 70.0), snr=32.0, role="train"),
+    "x94": dict(title="X-band range-profile surveillance radar",
+                t=profile(9.4e9, 64, 100e-6, 3.0, 30.0),
+                gain=28.0, nf=4.0, cover=(45.0, 210.0), snr=32.0, role="train"),
+    "x10": dict(title="X-band FMCW long-dwell radar", t=fmcw(10.2e9, 512, 400e-6, 0.5),
+                gain=24.0, nf=6.0, cover=(15.0, 240.0), snr=34.0, role="train"),
+    "u16": dict(title="Ku-band FMCW tower radar", t=fmcw(16.2e9, 256, 100e-6, 0.75),
+                gain=24.0, nf=6.0, cover=(12.0, 180.0), snr=33.0, role="train"),
+    "a35": dict(title="Ka-band range-profile radar", t=profile(35.0e9, 128, 66.7e-6, 1.5, 15.0),
+                gain=30.0, nf=7.0, cover=(25.0, 200.0), snr=32.0, role="train"),
+    "w79": dict(title="79 GHz imaging FMCW sensor", t=fmcw(79.0e9, 256, 64e-6, 0.25),
+                gain=24.0, nf=11.0, cover=(5.0, 60.0), snr=32.0, role="train"),
+    "x90": dict(title="X-band low-PRF range-profile radar",
+                t=profile(9.0e9, 256, 500e-6, 1.5, 20.0),
+                gain=30.0, nf=4.0, cover=(30.0, 380.0), snr=34.0, role="train"),
+    "k24b": dict(title="24 GHz FMCW low-rate sensor", t=fmcw(24.1e9, 128, 150e-6, 1.0),
+                 gain=20.0, nf=8.0, cover=(10.0, 120.0), snr=33.0, role="train"),
+    "a35f": dict(title="Ka-band FMCW sensor", t=fmcw(35.5e9, 128, 40e-6, 0.75),
+                 gain=25.0, nf=8.0, cover=(8.0, 90.0), snr=32.0, role="train"),
+    # kept out of the built-in model
+    "h13": dict(title="visiting Ku-band FMCW radar", t=fmcw(13.5e9, 160, 125e-6, 0.9),
+                gain=23.0, nf=6.0, cover=(12.0, 135.0), snr=33.0, role="hold-out"),
+    "h15": dict(title="visiting 15 GHz range-profile radar",
+                t=profile(15.0e9, 96, 80e-6, 2.5, 20.0),
+                gain=27.0, nf=5.0, cover=(30.0, 250.0), snr=32.0, role="hold-out"),
 }
 
 ROTORS = [1, 2, 3, 4, 6, 8]
@@ -50,26 +83,27 @@ BIRDS = [  # name, mass kg, span m, body RCS dBsm, glide fraction, give wingbeat
 ]
 
 
-def snr_db(radar, rcs_dbsm, r):
-    """Per-sample SNR of the simulator's radar equation (Mahafza Eq. 1.56)."""
-    t = radar["table"]
-    lam = C / t["carrier_hz"]
-    if t["waveform"] == "fmcw-beat":
-        bn = t["sample_rate_hz"]
-    else:
-        bn = C / (2 * t["range_cell_m"])
-    k = (t["transmit_power_w"] * 10 ** (t["tx_gain_dbi"] / 10) * 10 ** (t["rx_gain_dbi"] / 10)
-         * lam ** 2 / ((4 * math.pi) ** 3 * 1.380649e-23 * 290.0
-                       * 10 ** (t["noise_figure_db"] / 10) * 10 ** (t["losses_db"] / 10) * bn))
-    return 10 * math.log10(k * 10 ** (rcs_dbsm / 10) / r ** 4)
+def table_of(key, radar):
+    """The radar table with the transmit power set by the radar's SNR goal."""
+    t = dict(radar["t"])
+    t.update(tx_gain_dbi=radar["gain"], rx_gain_dbi=radar["gain"],
+             noise_figure_db=radar["nf"], losses_db=2.0, datatype="ci16_le")
+    lo, hi = radar["cover"]
+    r = lo + 0.7 * (hi - lo)
+    gain = 10 * math.log10(256 * (t["samples_per_chirp"] if t["waveform"] == "fmcw-beat" else 1))
+    t["transmit_power_w"] = 1.0
+    need = radar["snr"] - (site.snr_db(t, -15.0, r) + gain)
+    p = 10 ** (need / 10)
+    t["transmit_power_w"] = float("%.2g" % min(max(p, 1e-3), 200.0))
+    return t
 
 
 def cell_m(radar):
-    t = radar["table"]
-    if t["waveform"] == "fmcw-beat":
-        s = t["sweep_bandwidth_hz"] / t["sweep_duration_s"]
-        return C * t["sample_rate_hz"] / (2 * s * t["samples_per_chirp"])
-    return t["range_cell_m"]
+    return site.cell_m(radar["table"])
+
+
+def snr_db(radar, rcs_dbsm, r):
+    return site.snr_db(radar["table"], rcs_dbsm, r)
 
 
 def fmt(v):
@@ -82,7 +116,7 @@ def fmt(v):
     if isinstance(v, dict):
         return "{ " + ", ".join("%s = %s" % (k, fmt(x)) for k, x in v.items()) + " }"
     if isinstance(v, float):
-        return repr(round(v, 6))
+        return repr(float("%.10g" % v)) if abs(v) < 1e-3 else repr(round(v, 6))
     return str(v)
 
 
@@ -96,7 +130,7 @@ def point(r, az, el):
     return [r * math.cos(el) * math.cos(az), r * math.cos(el) * math.sin(az), r * math.sin(el)]
 
 
-def motion(rng, kind, radar, r):
+def motion(rng, kind, radar, r, speed=None):
     """A motion of `kind` centred near range r, staying inside the coverage."""
     lo, hi = radar["cover"]
     dur = radar["duration"]
@@ -105,7 +139,7 @@ def motion(rng, kind, radar, r):
         return dict(type="hover", position=point(r, az, el), sway_m=rng.uniform(0.03, 0.25),
                     sway_period_s=rng.uniform(2.0, 5.0),
                     drift_mps=[rng.uniform(-0.1, 0.1), rng.uniform(-0.1, 0.1), 0.0])
-    speed = rng.uniform(2.0, 9.0)
+    speed = speed if speed is not None else rng.uniform(2.0, 9.0)
     if kind == "crossing":
         p = point(r, az, el)
         d = [-math.sin(az), math.cos(az), 0.0]
@@ -123,18 +157,19 @@ def motion(rng, kind, radar, r):
                 velocity=[u[i] * speed for i in range(3)])
 
 
-def rotorcraft(rng, radar, oid, rotors, blades, mkind, r, faint):
-    length = rng.uniform(0.06, 0.19) if rotors > 1 else rng.uniform(0.12, 0.19)
-    tip = rng.uniform(*radar["tip"])
+def rotorcraft(rng, radar, oid, rotors, blades, mkind, r, faint, speed=None):
+    length = rng.uniform(0.06, 0.19) if rotors > 1 else rng.uniform(0.12, 0.30)
+    tip = rng.uniform(*radar.get("tip", (40.0, 110.0)))
     rate = tip / (2 * math.pi * length)
-    rate = min(max(rate, 45.0), 160.0)
+    rate = min(max(rate, 40.0), 170.0)
     body = rng.uniform(-19.0, -8.0) - (20.0 if faint else 0.0)
     return dict(kind="rotorcraft", id=oid, rotors=rotors, blades=blades,
                 arm_length_m=0.0 if rotors == 1 else round(rng.uniform(0.12, 0.45), 3),
                 blade_length_m=round(length, 4), rotor_rate_hz=round(rate, 2),
                 rotor_rate_spread=0.03, body_rcs_dbsm=round(body, 1),
                 blade_rcs_dbsm=round(body - rng.uniform(3.0, 9.0), 1),
-                yaw_deg=round(rng.uniform(0, 90), 1), motion=motion(rng, mkind, radar, r))
+                yaw_deg=round(rng.uniform(0, 90), 1),
+                motion=motion(rng, mkind, radar, r, speed))
 
 
 def bird(rng, radar, oid, spec, mkind, r, faint):
@@ -155,7 +190,7 @@ def bird(rng, radar, oid, spec, mkind, r, faint):
         dur = radar["duration"]
         v = m["velocity"]
         sp = math.sqrt(sum(x * x for x in v))
-        want = rng.uniform(6.0, 14.0) if mass > 0.2 else rng.uniform(4.0, 9.0)
+        want = rng.uniform(6.0, 16.0) if mass > 0.2 else rng.uniform(4.0, 10.0)
         mid = [m["start"][i] + v[i] * dur / 2 for i in range(3)]
         m["velocity"] = [x * want / sp for x in v]
         m["start"] = [mid[i] - m["velocity"][i] * dur / 2 for i in range(3)]
@@ -199,10 +234,8 @@ def draw_clear(rng, lo, hi, width, busy, margin):
 
 
 def clutter(rng, radar, run_kind, n, busy=()):
-    """Vegetation, swaying masts and stationary returns; strengths kept below clipping
-    (per-sample SNR <= 34 dB for patches and masts, <= 36 dB for fixed returns, so
-    that a few of them together stay below ci16 full scale, 49.5 dB above the noise).
-    Patches and masts keep clear of the targets' ranges (`busy`)."""
+    """Annotated clutter that moves: a vegetation patch (Billingsley's wind model) and a
+    swaying mast, kept clear of the targets' ranges (`busy`)."""
     lo, hi = radar["cover"]
     cell = cell_m(radar)
     margin = 3 * cell + 2.0
@@ -210,33 +243,38 @@ def clutter(rng, radar, run_kind, n, busy=()):
     if run_kind == "clutter" or rng.random() < 0.6:
         r0 = draw_clear(rng, lo, hi, 6 * cell, busy, margin)
         rcs = rng.uniform(-25.0, 0.0)
-        while snr_db(radar, rcs, r0) > 34.0:
+        while snr_db(radar, rcs, r0) > 45.0:
             rcs -= 3.0
         out.append(dict(kind="vegetation", id="veg-%d" % n, range_min_m=round(r0, 2),
                         range_max_m=round(r0 + cell * rng.randint(3, 6), 2),
-                        rcs_dbsm_per_cell=round(rcs, 1), wind_mph=round(rng.uniform(2.0, 35.0), 1)))
+                        rcs_dbsm_per_cell=round(rcs, 1), wind_mph=round(rng.uniform(2.0, 40.0), 1)))
     if run_kind == "clutter" or rng.random() < 0.4:
         r = draw_clear(rng, lo, hi, 0.0, busy, margin)
         rcs = rng.uniform(-15.0, 5.0)
-        while snr_db(radar, rcs, r) > 34.0:
+        while snr_db(radar, rcs, r) > 45.0:
             rcs -= 3.0
         az, el = direction(rng, 0.1)
         out.append(dict(kind="swaying", id="mast-%d" % n, position=point(r, az, el),
                         rcs_dbsm=round(rcs, 1), sway_m=round(rng.uniform(0.01, 0.08), 3),
                         period_s=round(rng.uniform(1.0, 4.0), 2)))
-    for j in range(rng.randint(1, 2)):
-        r = rng.uniform(lo, hi)
-        rcs = rng.uniform(0.0, 20.0)
-        while snr_db(radar, rcs, r) > 36.0:
-            rcs -= 3.0
-        az, el = direction(rng, 0.05)
-        out.append(dict(kind="stationary", id="fixed-%d-%d" % (n, j), position=point(r, az, el),
-                        rcs_dbsm=round(rcs, 1)))
     return out
 
 
+def finish_table(rng, radar, objs, clean):
+    """The run's radar table: the radar's own, its imperfections (none on a clean site
+    but a little jitter), and the ci16 scale that keeps every return under full scale."""
+    t = dict(radar["table"])
+    if clean:
+        t["phase_jitter_rad"] = round(rng.uniform(0.0, 0.002), 5)
+    else:
+        t.update(site.radar_imperfections(rng, t))
+    extra = [t[k] for k in ("leakage_snr_db", "dc_offset_snr_db") if k in t]
+    t["noise_rms_lsb"] = site.noise_lsb_for(t, objs, extra)
+    return t
+
+
 def write_scene(path, name, radar_key, radar, desc, seed, objects, site=SITE,
-                labels_complete=False):
+                labels_complete=True, table=None):
     lines = ["# Generated by scripts/%s: do not edit by hand." % os.path.basename(sys.argv[0]),
              "# Format: labelled-demo/scenes/EXAMPLE.toml.", "",
              'name = "%s"' % name, "duration_s = %s" % fmt(radar["duration"]),
@@ -245,7 +283,7 @@ def write_scene(path, name, radar_key, radar, desc, seed, objects, site=SITE,
     if labels_complete:
         lines.append("labels_complete = true")
     lines += ["", "[radar]"]
-    for k, v in radar["table"].items():
+    for k, v in (table or radar["table"]).items():
         lines.append("%s = %s" % (k, fmt(v)))
     for o in objects:
         lines += ["", "[[object]]"]
@@ -255,61 +293,98 @@ def write_scene(path, name, radar_key, radar, desc, seed, objects, site=SITE,
         f.write("\n".join(lines) + "\n")
 
 
+# What each radar's runs hold, in order; `faint` every fifth run.
+PLAN = ["rotorcraft", "rotorcraft", "rotorcraft", "rotorcraft", "rotorcraft", "rotorcraft",
+        "bird", "bird", "bird", "mixed", "mixed", "clutter", "background", "background"]
+HOLD_OUT_PLAN = ["mixed", "rotorcraft", "mixed", "background", "bird", "rotorcraft"]
+
+
+def make_run(rng, key, radar, i, kind, count):
+    """One run's objects and description."""
+    lo, hi = radar["cover"]
+    faint = i % 5 == 4
+    mkind = MOTIONS[i % 4]
+    objs, desc, busy = [], [], []
+    near_building = False
+    if kind in ("rotorcraft", "mixed"):
+        rotors = ROTORS[(i + count) % 6]
+        blades = 3 if (i // 2) % 2 == 1 else 2
+        r = rng.uniform(lo + 0.15 * (hi - lo), hi - 0.15 * (hi - lo))
+        fast = mkind != "hover" and i % 3 == 2
+        speed = rng.uniform(12.0, 22.0) if fast else None
+        uav = rotorcraft(rng, radar, "uav-1", rotors, blades, mkind, r, faint, speed)
+        objs.append(uav)
+        busy.append(range_span(uav, radar["duration"]))
+        near_building = mkind == "hover" and rng.random() < 0.5
+        desc.append("%s%s %d-rotor %d-blade rotorcraft at %.0f m%s%s" % (
+            "fast " if fast else "", mkind, rotors, blades, r, " (faint)" if faint else "",
+            " before a building" if near_building else ""))
+    if kind in ("bird", "mixed"):
+        spec = BIRDS[(i * 3 + count) % len(BIRDS)]
+        r = rng.uniform(lo + 0.1 * (hi - lo), hi - 0.1 * (hi - lo))
+        if kind == "mixed":
+            span = hi - lo
+            near = busy[0][0]
+            r = (rng.uniform(hi - 0.2 * span, hi - 0.1 * span) if near < (lo + hi) / 2
+                 else rng.uniform(lo + 0.1 * span, lo + 0.2 * span))
+        bm = MOTIONS[(i + 1) % 4] if kind == "mixed" else mkind
+        b = bird(rng, radar, "bird-1", spec, bm, r, faint)
+        objs.append(b)
+        busy.append(range_span(b, radar["duration"]))
+        desc.append("%s %s at %.0f m" % (bm, spec[0], r))
+    if kind != "background":
+        objs += clutter(rng, radar, kind, i, busy)
+    clean = kind != "background" and rng.random() < 0.15
+    if not clean:
+        objs += site.site_clutter(rng, radar["table"], i, busy, keep_clear_m=3.0)
+    else:
+        desc.append("clean site")
+    if near_building:
+        # a strong building right behind the hovering rotorcraft (within one cell)
+        p = objs[0]["motion"]["position"]
+        rh = math.sqrt(sum(x * x for x in p))
+        rb = rh + rng.uniform(-1.0, 1.0) * cell_m(radar)
+        u = [x / rh for x in p]
+        objs.append(dict(kind="stationary", id="building-%d" % i,
+                         position=[u[0] * rb, u[1] * rb, 0.0],
+                         rcs_dbsm=round(rng.uniform(5.0, 14.0), 1),
+                         amplitude_scintillation=round(rng.uniform(0.005, 0.03), 4),
+                         phase_scintillation_rad=round(rng.uniform(0.002, 0.02), 4),
+                         scintillation_hz=round(rng.uniform(0.5, 5.0), 2),
+                         scintillation_order=rng.randint(2, 4)))
+    if kind == "clutter":
+        desc.append("vegetation, mast and the site's clutter only")
+    if kind == "background":
+        desc.append("the site's stationary background only")
+    return objs, desc, clean
+
+
 def main():
     out = sys.argv[1] if len(sys.argv) > 1 else os.path.join(
         os.path.dirname(os.path.abspath(__file__)), "..", "labelled-demo", "scenes")
     os.makedirs(out, exist_ok=True)
     for f in os.listdir(out):
-        if f.startswith("run-") and f.endswith(".toml"):
+        if (f.startswith("run-") or f.startswith("holdout-")) and f.endswith(".toml"):
             os.remove(os.path.join(out, f))
-    rng = random.Random(20240611)
+    rng = random.Random(20261202)
     count = 0
     for key, radar in RADARS.items():
-        lo, hi = radar["cover"]
-        plan = []
-        for i in range(radar["runs"]):
-            if i < radar["runs"] // 2:
-                plan.append("rotorcraft")
-            elif i < radar["runs"] // 2 + radar["runs"] // 4:
-                plan.append("bird")
-            elif i < radar["runs"] - 2:
-                plan.append("mixed")
-            else:
-                plan.append("clutter")
+        radar = dict(radar)
+        radar["table"] = table_of(key, radar)
+        plan = PLAN if radar["role"] == "train" else HOLD_OUT_PLAN
         for i, kind in enumerate(plan):
-            faint = i % 6 == 5
-            mkind = MOTIONS[i % 4]
-            objs, desc = [], []
-            if kind in ("rotorcraft", "mixed"):
-                rotors = ROTORS[(i + (i // 6)) % 6]
-                blades = 3 if (i // 2) % 2 == 1 else 2
-                r = rng.uniform(lo + 0.15 * (hi - lo), hi - 0.15 * (hi - lo))
-                r_uav = r
-                objs.append(rotorcraft(rng, radar, "uav-1", rotors, blades, mkind, r, faint))
-                desc.append("%s %d-rotor %d-blade rotorcraft at %.0f m%s" % (
-                    mkind, rotors, blades, r, " (faint)" if faint else ""))
-            if kind in ("bird", "mixed"):
-                spec = BIRDS[(i * 3 + count) % len(BIRDS)]
-                r = rng.uniform(lo + 0.1 * (hi - lo), hi - 0.1 * (hi - lo))
-                if kind == "mixed":
-                    # Keep the bird well apart in range from the rotorcraft (the far end of
-                    # the coverage), so each label's range window holds one target.
-                    span = hi - lo
-                    near = r_uav
-                    r = (rng.uniform(hi - 0.2 * span, hi - 0.1 * span) if near < (lo + hi) / 2
-                         else rng.uniform(lo + 0.1 * span, lo + 0.2 * span))
-                bm = MOTIONS[(i + 1) % 4] if kind == "mixed" else mkind
-                objs.append(bird(rng, radar, "bird-1", spec, bm, r, faint))
-                desc.append("%s %s at %.0f m" % (bm, spec[0], r))
-            busy = [range_span(o, radar["duration"]) for o in objs]
-            objs += clutter(rng, radar, kind, i, busy)
-            if kind == "clutter":
-                desc.append("vegetation, mast and fixed clutter only")
+            # hold-out runs are 1.5 s: they are the shipped recordings (under 8 MiB)
+            short = 1.5 if radar["role"] == "hold-out" else 2.0
+            radar["duration"] = 2 * short if kind == "background" else short
+            objs, desc, clean = make_run(rng, key, radar, i, kind, count)
+            table = finish_table(rng, radar, objs, clean)
             count += 1
-            tag = {"rotorcraft": "uav", "bird": "bird", "mixed": "mixed", "clutter": "clutter"}[kind]
-            name = "run-%s-%02d-%s" % (key, i, tag)
+            tag = {"rotorcraft": "uav", "bird": "bird", "mixed": "mixed", "clutter": "clutter",
+                   "background": "background"}[kind]
+            prefix = "run" if radar["role"] == "train" else "holdout"
+            name = "%s-%s-%02d-%s" % (prefix, key, i, tag)
             write_scene(os.path.join(out, name + ".toml"), name, key, radar, "; ".join(desc),
-                        1000 + count, objs)
+                        1000 + count, objs, table=table)
     print("wrote %d scene files to %s" % (count, out))
 
 
