@@ -94,6 +94,10 @@ enum Command {
         /// Also score a grouped k-fold cross-validation by recording (0 = off).
         #[arg(long, default_value_t = 5)]
         folds: usize,
+        /// Step towards uniform probabilities per feature outside the training domain
+        /// (0 = no domain check)
+        #[arg(long, default_value_t = rotorsift::model::domain::DEFAULT_STEP)]
+        domain_step: f64,
         #[command(flatten)]
         process: ProcessArgs,
         /// Output format of the report.
@@ -275,6 +279,7 @@ fn track_out(t: &pipeline::AnalysedTrack) -> report::tracks::TrackOut {
         label: None,
         confidence: None,
         probabilities: None,
+        off_domain_features: None,
         hovering: t.hovering(),
         blade_flash_hz: t.rotor.blade_flash_hz,
         tip_speed_mps: t.rotor.tip_speed_mps,
@@ -459,6 +464,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
             trees,
             unlabelled_as,
             folds,
+            domain_step,
             process,
             format,
         } => {
@@ -469,29 +475,13 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 trees,
                 unlabelled_as,
                 folds,
+                domain_step,
             };
             let (file, rep) = pipeline::classify::train(&analyses, &settings, &opts)?;
             file.save(&model)?;
             let text = match format {
                 Format::Json => serde_json::to_string_pretty(&rep)? + "\n",
-                Format::Table => format!(
-                    "trained on {} tracks ({} recordings); held out {} tracks of {} recordings; {} unmatched tracks left out\n\nheld-out confusion matrix (rows true, columns predicted):\n{}\n{}feature importances (top 12):\n{}\nmodel written to {}\n",
-                    rep.train_tracks,
-                    rep.train_recordings,
-                    rep.test_tracks,
-                    rep.test_recordings.len(),
-                    rep.tracks_unmatched,
-                    report::scores::render(&rep.heldout),
-                    rep.cross_validated
-                        .as_ref()
-                        .map(|cv| format!(
-                            "grouped {folds}-fold cross-validation by recording (every recording held out once):\n{}\n",
-                            report::scores::render(cv)
-                        ))
-                        .unwrap_or_default(),
-                    report::scores::importance_table(&rep.importances, 12).render(),
-                    model.display()
-                ),
+                Format::Table => report::scores::render_train(&rep, folds, &model),
             };
             emit(&text)?;
             Ok(exit_code(failed))
@@ -519,6 +509,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
                     out.label = Some(p.label);
                     out.confidence = Some(p.confidence);
                     out.probabilities = Some(p.probabilities);
+                    out.off_domain_features = Some(p.off_domain);
                     tracks.push(out);
                 }
                 recordings.push(report::tracks::RecordingOut {
@@ -558,22 +549,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
             )?;
             let text = match format {
                 Format::Json => serde_json::to_string_pretty(&ev)? + "\n",
-                Format::Table => format!(
-                    "model {}: {} targets, {} detected, {} unmatched tracks\n\ntargets (rows true, columns predicted):\n{}{}",
-                    clf.name,
-                    ev.targets,
-                    ev.targets_detected,
-                    ev.tracks_unmatched,
-                    if ev.targets == 0 {
-                        "(no labelled targets)\n".to_string()
-                    } else {
-                        report::scores::render(&ev.scores)
-                    },
-                    ev.false_alarms
-                        .as_ref()
-                        .map(|f| format!("\n{}", report::scores::render_false_alarms(f)))
-                        .unwrap_or_default()
-                ),
+                Format::Table => report::scores::render_evaluation(&ev, &clf.name),
             };
             emit(&text)?;
             Ok(exit_code(failed))

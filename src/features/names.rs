@@ -58,6 +58,39 @@ features! {
     SlowBandSnr = "slow_band_snr_db", "dB", "the same for 2-20 m/s from the body line (wings, limbs, foliage)";
 }
 
+/// Features whose value depends on the radar that measured them, not only on the target:
+/// SNR-referred powers and strengths (the radar's sensitivity and range), Doppler extents
+/// capped by the unambiguous speed lambda / (4T) (a tip of 60 m/s reads 15 m/s on a radar
+/// whose unambiguous speed is 15 m/s), and shapes of the Doppler spectrum that depend on
+/// the number of bins and where the spread wraps (entropy, cepstral coefficients). The
+/// rest (speeds of the body, cadences and flash rates in Hz, amplitude fluctuation,
+/// symmetry, durations) mean the same on every radar that resolves them.
+pub const RADAR_DEPENDENT: &[&str] = &[
+    "snr_db",
+    "amp_cadence_strength_db",
+    "md_extent_mps",
+    "md_extent95_mps",
+    "outside_share",
+    "spectral_entropy",
+    "cepstrum_1",
+    "cepstrum_2",
+    "cepstrum_3",
+    "cepstrum_4",
+    "cepstral_peak_strength",
+    "blade_flash_strength_db",
+    "tip_speed_mps",
+    "blade_length_m",
+    "cadence_low_strength_db",
+    "cadence_high_strength_db",
+    "fast_band_snr_db",
+    "slow_band_snr_db",
+];
+
+/// Whether feature `name` means the same on every radar (see [`RADAR_DEPENDENT`]).
+pub fn radar_independent(name: &str) -> bool {
+    !RADAR_DEPENDENT.contains(&name)
+}
+
 /// Number of features.
 pub fn count() -> usize {
     FEATURES.len()
@@ -71,14 +104,35 @@ pub fn names() -> Vec<String> {
 /// The feature table in Markdown (for the README); a `|` inside a meaning (an absolute
 /// value) is escaped so it does not end the table cell.
 pub fn markdown_table() -> String {
-    let mut s = String::from("| feature | unit | meaning |\n| --- | --- | --- |\n");
+    let mut s = String::from(
+        "| feature | unit | radar-independent | meaning |\n| --- | --- | --- | --- |\n",
+    );
     for f in FEATURES {
         s.push_str(&format!(
-            "| `{}` | {} | {} |\n",
+            "| `{}` | {} | {} | {} |\n",
             f.name,
             f.unit,
+            if radar_independent(f.name) {
+                "yes"
+            } else {
+                "no"
+            },
             f.meaning.replace('|', "\\|")
         ));
     }
     s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Every radar-dependent name is a feature (a typo would silently mark nothing).
+    #[test]
+    fn radar_dependent_names_exist() {
+        for n in RADAR_DEPENDENT {
+            assert!(FEATURES.iter().any(|f| f.name == *n), "{n}");
+        }
+        assert!(radar_independent("blade_flash_hz") && !radar_independent("tip_speed_mps"));
+    }
 }

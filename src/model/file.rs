@@ -2,6 +2,7 @@
 //! and the feature-extraction settings it was trained with, so a model is only applied
 //! to features computed the same way. Written atomically (temp file + rename).
 
+use super::domain::Domain;
 use super::forest::Forest;
 use crate::error::{Error, Result};
 use serde::{Deserialize, Serialize};
@@ -33,6 +34,9 @@ pub struct ModelFile {
     pub training: Value,
     /// The fitted forest.
     pub forest: Forest,
+    /// The features' training domain (absent in models from earlier builds: no check).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub domain: Option<Domain>,
 }
 
 impl ModelFile {
@@ -53,9 +57,17 @@ impl ModelFile {
             feature_settings,
             training,
             forest,
+            domain: None,
         };
         m.check_consistent().map_err(Error::Invalid)?;
         Ok(m)
+    }
+
+    /// The model with the features' training domain `d` (see [`Domain`]).
+    pub fn with_domain(mut self, d: Domain) -> Result<ModelFile> {
+        self.domain = Some(d);
+        self.check_consistent().map_err(Error::Invalid)?;
+        Ok(self)
     }
 
     fn check_consistent(&self) -> std::result::Result<(), String> {
@@ -86,6 +98,9 @@ impl ModelFile {
                 self.feature_names.len(),
                 self.forest.n_features()
             ));
+        }
+        if let Some(d) = &self.domain {
+            d.check(self.forest.n_features())?;
         }
         self.forest.check().map_err(|e| e.to_string())
     }

@@ -307,3 +307,13 @@ pub struct FalseAlarms {
     /// False rotorcraft tracks per hour of recording.
     pub false_rotorcraft_per_hour: f64,
 }
+
+/// Scores of a leave-one-radar-out cross-validation: every radar's tracks predicted by a
+/// model fitted on the other radars' (domain included), pooled, and per radar.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RadarCrossValidation {
+    /// Pooled track-level scores.
+    pub pooled: Scores,
+    /// Per radar (`pipeline::classify::radar_key`): its tracks' scores when it was held out.
+    pub per_radar: BTreeMap<String, Scores>,
+}

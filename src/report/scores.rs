@@ -2,7 +2,8 @@
 //! precision/recall/F1, calibration figures and feature importances.
 
 use super::Table;
-use crate::model::{FalseAlarms, Scores};
+use crate::model::{FalseAlarms, RadarCrossValidation, Scores};
+use crate::pipeline::classify::{Evaluation, TrainReport};
 
 /// The confusion matrix as a table.
 pub fn confusion_table(s: &Scores) -> Table {
@@ -90,4 +91,126 @@ pub fn importance_table(imp: &[(String, f64)], top: usize) -> Table {
         t.row([n.clone(), format!("{v:.4}")]);
     }
     t
+}
+
+/// Leave-one-radar-out scores, one line per radar: tracks, accuracy, rotorcraft recall,
+/// ECE (expected calibration error, 10 bins).
+pub fn radar_table(cv: &RadarCrossValidation) -> Table {
+    let mut t = Table::new([
+        "held-out radar",
+        "tracks",
+        "accuracy",
+        "rotorcraft recall",
+        "ECE",
+    ]);
+    for (radar, s) in &cv.per_radar {
+        let n: usize = s.confusion.iter().flatten().sum();
+        t.row([
+            radar.clone(),
+            n.to_string(),
+            format!("{:.3}", s.accuracy),
+            s.per_class
+                .get("rotorcraft")
+                .filter(|c| c.support > 0)
+                .map(|c| format!("{:.3}", c.recall))
+                .unwrap_or_else(|| "-".into()),
+            s.ece
+                .map(|e| format!("{e:.3}"))
+                .unwrap_or_else(|| "-".into()),
+        ]);
+    }
+    t
+}
+
+/// The table report of `train`.
+pub fn render_train(rep: &TrainReport, folds: usize, model: &std::path::Path) -> String {
+    let mut s = format!(
+        "trained on {} tracks ({} recordings); held out {} tracks of {} recordings; {} unmatched tracks left out\n\nheld-out confusion matrix (rows true, columns predicted):\n{}\n",
+        rep.train_tracks,
+        rep.train_recordings,
+        rep.test_tracks,
+        rep.test_recordings.len(),
+        rep.tracks_unmatched,
+        render(&rep.heldout)
+    );
+    if let Some(cv) = &rep.cross_validated {
+        s += &format!(
+            "grouped {folds}-fold cross-validation by recording (every recording held out once):\n{}\n",
+            render(cv)
+        );
+    }
+    if let Some(cv) = &rep.radar_cross_validated {
+        s += &format!(
+            "leave-one-radar-out cross-validation (each radar predicted by a model of the others: what to expect on an unseen radar):\n{}\n{}\n",
+            render(&cv.pooled),
+            radar_table(cv).render()
+        );
+    }
+    s += &format!(
+        "feature importances (top 12):\n{}\nmodel written to {}\n",
+        importance_table(&rep.importances, 12).render(),
+        model.display()
+    );
+    s
+}
+
+/// Per-radar target scores of `evaluate`: targets, accuracy, rotorcraft recall, ECE.
+pub fn per_radar_table(per_radar: &std::collections::BTreeMap<String, Scores>) -> Table {
+    let mut t = Table::new(["radar", "targets", "accuracy", "rotorcraft recall", "ECE"]);
+    for (radar, s) in per_radar {
+        let n: usize = s.confusion.iter().flatten().sum();
+        t.row([
+            radar.clone(),
+            n.to_string(),
+            format!("{:.3}", s.accuracy),
+            s.per_class
+                .get("rotorcraft")
+                .filter(|c| c.support > 0)
+                .map(|c| format!("{:.3}", c.recall))
+                .unwrap_or_else(|| "-".into()),
+            s.ece
+                .map(|e| format!("{e:.3}"))
+                .unwrap_or_else(|| "-".into()),
+        ]);
+    }
+    t
+}
+
+/// The table report of `evaluate` (ECE: expected calibration error, 10 bins).
+pub fn render_evaluation(ev: &Evaluation, model_name: &str) -> String {
+    let mut s = format!(
+        "model {}: {} target{}, {} detected, {} unmatched track{}\n\ntargets (rows true, columns predicted):\n{}",
+        model_name,
+        ev.targets,
+        if ev.targets == 1 { "" } else { "s" },
+        ev.targets_detected,
+        ev.tracks_unmatched,
+        if ev.tracks_unmatched == 1 { "" } else { "s" },
+        if ev.targets == 0 {
+            "(no labelled targets)\n".to_string()
+        } else {
+            render(&ev.scores)
+        }
+    );
+    if ev.per_radar.len() > 1 || (ev.targets > 0 && !ev.per_radar.is_empty()) {
+        s += &format!(
+            "\nper radar (ECE: expected calibration error):\n{}",
+            per_radar_table(&ev.per_radar).render()
+        );
+    }
+    if let Some(f) = &ev.false_alarms {
+        s += &format!("\n{}", render_false_alarms(f));
+    }
+    if let Some(x) = &ev.model_expectation {
+        let opt = |v: Option<f64>| v.map(|v| format!("{v:.3}")).unwrap_or_else(|| "-".into());
+        s += &format!(
+            "\nwhat the model promises (its own cross-validation, tracks): on an unseen radar accuracy {:.3}, ECE {} (leave-one-radar-out over {} radars); on a training radar accuracy {}, ECE {} (grouped k-fold by recording)\n",
+            x.leave_one_radar_out_accuracy,
+            opt(x.leave_one_radar_out_ece),
+            x.radars,
+            opt(x.grouped_kfold_accuracy),
+            opt(x.grouped_kfold_ece)
+        );
+    }
+    s
 }

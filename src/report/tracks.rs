@@ -24,6 +24,9 @@ pub struct TrackOut {
     pub confidence: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub probabilities: Option<BTreeMap<String, f64>>,
+    /// Features outside the model's training domain (each one lowers the confidence).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub off_domain_features: Option<usize>,
     pub hovering: bool,
     pub blade_flash_hz: Option<f64>,
     pub tip_speed_mps: Option<f64>,
