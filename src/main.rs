@@ -150,6 +150,14 @@ enum Command {
         /// At most this many tracks get pictures (most doubtful first).
         #[arg(long, default_value_t = 150)]
         max_pictures: usize,
+        /// List every track predicted this class (e.g. rotorcraft: every drone alarm)
+        /// instead of the doubtful ones.
+        #[arg(long)]
+        predicted: Option<String>,
+        /// List this one track only: RECORDING:ID (the recording's name without
+        /// extension, the track id as `detect` prints it).
+        #[arg(long)]
+        track: Option<String>,
     },
     /// Draw one picture as PNG: a CPI's range-Doppler map, or a track's spectrogram,
     /// cepstrogram or cadence-velocity diagram.
@@ -499,9 +507,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 for t in &a.tracks {
                     let p = clf.predict(&t.features, model.min_confidence)?;
                     let mut out = track_out(t);
-                    // A track labelled bird or clutter shows no rotor (docs/output-format.md: null
-                    // when no rotor is seen), whatever flash-like periodicity it carries.
-                    if p.label == "bird" || p.label == "clutter" {
+                    if !p.shows_rotor() {
                         out.blade_flash_hz = None;
                         out.tip_speed_mps = None;
                         out.blade_length_m = None;
@@ -561,19 +567,30 @@ fn run(cli: Cli) -> Result<ExitCode> {
             low_confidence,
             doubt,
             max_pictures,
+            predicted,
+            track,
         } => {
-            let clf = model.load()?;
-            for (name, v) in [("--low-confidence", low_confidence), ("--doubt", doubt)] {
-                if !(0.0..=1.0).contains(&v) {
-                    anyhow::bail!("{name} {v}: expected a probability in 0..1");
+            let track = match track {
+                None => None,
+                Some(t) => {
+                    let (rec, id) = t.rsplit_once(':').unwrap_or((&t, ""));
+                    let id: usize = id.parse().map_err(|_| {
+                        anyhow::anyhow!("--track {t}: expected RECORDING:ID, e.g. run-k24-00-uav:0")
+                    })?;
+                    Some((rec.to_string(), id))
                 }
-            }
-            let (analyses, failed) = analyse_all(&inputs, model.channel, &clf.settings, true)?;
+            };
             let params = pipeline::audit::AuditParams {
                 low_confidence,
                 bird_rotor_doubt: doubt,
                 max_pictures,
+                min_confidence: model.min_confidence,
+                predicted,
+                track,
             };
+            params.check()?;
+            let clf = model.load()?;
+            let (analyses, failed) = analyse_all(&inputs, model.channel, &clf.settings, true)?;
             std::fs::create_dir_all(&out).with_context(|| format!("creating {}", out.display()))?;
             let a = pipeline::audit::audit(&analyses, &clf, &params, model.channel, &out)?;
             let page = report::audit::to_html(&a, rotorsift::VERSION);

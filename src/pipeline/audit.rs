@@ -1,6 +1,7 @@
 //! The audit: picks the tracks a person should look at — misclassified (against the
-//! annotation they match, docs/recording-format.md), low-confidence, or doubtful between bird and
-//! rotorcraft — and draws each one's pictures. `report::audit` writes the HTML page.
+//! annotation they match, docs/recording-format.md), low-confidence, or doubtful between
+//! bird and rotorcraft; or every track predicted one class ("every drone alarm"); or one
+//! named track — and draws each one's pictures. `report::audit` writes the HTML page.
 
 use std::collections::BTreeMap;
 use std::path::Path;
@@ -14,7 +15,7 @@ use crate::error::Result;
 use crate::report::plot::write_png;
 
 /// What makes a track doubtful.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct AuditParams {
     /// Tracks whose confidence is below this are listed.
     pub low_confidence: f64,
@@ -23,6 +24,12 @@ pub struct AuditParams {
     /// At most this many tracks get pictures (the most doubtful first); the rest are
     /// listed without.
     pub max_pictures: usize,
+    /// Tracks whose confidence is below this are labelled `unknown` (as in `classify`).
+    pub min_confidence: f64,
+    /// List every track predicted this class instead of the doubtful ones.
+    pub predicted: Option<String>,
+    /// List this one track only: (recording name, track id).
+    pub track: Option<(String, usize)>,
 }
 
 impl Default for AuditParams {
@@ -31,7 +38,28 @@ impl Default for AuditParams {
             low_confidence: 0.6,
             bird_rotor_doubt: 0.2,
             max_pictures: 150,
+            min_confidence: 0.0,
+            predicted: None,
+            track: None,
         }
+    }
+}
+
+impl AuditParams {
+    /// Checks every value; the error names the option and the allowed range.
+    pub fn check(&self) -> Result<()> {
+        for (name, v) in [
+            ("--low-confidence", self.low_confidence),
+            ("--doubt", self.bird_rotor_doubt),
+            ("--min-confidence", self.min_confidence),
+        ] {
+            if !(0.0..=1.0).contains(&v) {
+                return Err(crate::Error::Invalid(format!(
+                    "{name} {v}: expected a probability from 0 to 1"
+                )));
+            }
+        }
+        Ok(())
     }
 }
 
@@ -94,6 +122,7 @@ pub fn audit(
     channel: usize,
     dir: &Path,
 ) -> Result<Audit> {
+    params.check()?;
     let mut out = Audit {
         model: clf.name.clone(),
         recordings: analyses.len(),
@@ -107,9 +136,13 @@ pub fn audit(
         let matched = match_tracks(&spans, &a.meta.annotations, &a.meta.params);
         for (ti, (t, m)) in a.tracks.iter().zip(&matched).enumerate() {
             out.tracks += 1;
-            let p = clf.predict(&t.features, 0.0)?;
+            let p = clf.predict(&t.features, params.min_confidence)?;
             let ann = m.map(|i| &a.meta.annotations[i]);
             let mut reasons = Vec::new();
+            let named = params
+                .track
+                .as_ref()
+                .map(|(rec, id)| *rec == name_of(&a.meta) && *id == t.track.id);
             let mut score = 1.0 - p.confidence;
             if let Some(ann) = ann {
                 out.matched += 1;
@@ -130,9 +163,26 @@ pub fn audit(
                 reasons.push(format!("bird or rotorcraft? ({pb:.2} / {pr:.2})"));
                 score += 1.0;
             }
-            if reasons.is_empty() {
+            let wanted = match (&named, &params.predicted) {
+                (Some(hit), _) => {
+                    if *hit {
+                        reasons.insert(0, "asked for".into());
+                    }
+                    *hit
+                }
+                (None, Some(class)) => {
+                    if p.label == *class {
+                        reasons.insert(0, format!("predicted {class}"));
+                    }
+                    p.label == *class
+                }
+                (None, None) => !reasons.is_empty(),
+            };
+            if !wanted {
                 continue;
             }
+            // what classify shows: no rotor figures for a track not taken to show a rotor
+            let rotor = p.shows_rotor();
             picked.push((
                 ai,
                 ti,
@@ -145,8 +195,8 @@ pub fn audit(
                     radial_velocity_mps: t.kinematics.body_velocity_mps,
                     snr_db: t.track.mean_snr_db(),
                     hovering: t.hovering(),
-                    blade_flash_hz: t.rotor.blade_flash_hz,
-                    tip_speed_mps: t.rotor.tip_speed_mps,
+                    blade_flash_hz: t.rotor.blade_flash_hz.filter(|_| rotor),
+                    tip_speed_mps: t.rotor.tip_speed_mps.filter(|_| rotor),
                     truth: ann.map(|x| x.label.clone()),
                     target_id: ann.and_then(|x| x.target_id.clone()),
                     prediction: p,

@@ -378,6 +378,13 @@ impl Classifier {
     }
 }
 
+impl Prediction {
+    /// Whether the track's rotor figures are shown (see [`NO_ROTOR_CLASSES`]).
+    pub fn shows_rotor(&self) -> bool {
+        !NO_ROTOR_CLASSES.contains(&self.label.as_str())
+    }
+}
+
 /// The first key (dotted path) of `have` that `known` lacks; values are not compared.
 fn unknown_key(have: &serde_json::Value, known: &serde_json::Value, path: &str) -> Option<String> {
     let (serde_json::Value::Object(h), serde_json::Value::Object(k)) = (have, known) else {
@@ -395,6 +402,11 @@ fn unknown_key(have: &serde_json::Value, known: &serde_json::Value, path: &str) 
         }
     })
 }
+
+/// Classes whose tracks are not taken to show a rotor: `classify` and the audit print no
+/// rotor figures (flash rate, tip speed, blade length) for them, whatever flash-like
+/// periodicity the track carries (docs/output-format.md).
+pub const NO_ROTOR_CLASSES: [&str; 2] = ["bird", BACKGROUND_CLASS];
 
 /// One track's classification.
 #[derive(Debug, Clone, PartialEq, Serialize)]
