@@ -80,7 +80,7 @@ enum Command {
         #[arg(long)]
         model: PathBuf,
         /// Share of the tracks (by whole recordings) held out for scoring.
-        #[arg(long, default_value_t = 0.3)]
+        #[arg(long, default_value_t = 0.3, value_parser = parse_fraction)]
         holdout_fraction: f64,
         /// Seed of the split and of the ensemble.
         #[arg(long, default_value_t = 7)]
@@ -96,7 +96,7 @@ enum Command {
         folds: usize,
         /// Step towards uniform probabilities per feature outside the training domain
         /// (0 = no domain check)
-        #[arg(long, default_value_t = rotorsift::model::domain::DEFAULT_STEP)]
+        #[arg(long, default_value_t = rotorsift::model::domain::DEFAULT_STEP, value_parser = parse_probability)]
         domain_step: f64,
         #[command(flatten)]
         process: ProcessArgs,
@@ -142,10 +142,10 @@ enum Command {
         #[arg(long)]
         out: PathBuf,
         /// Tracks under this confidence are listed.
-        #[arg(long, default_value_t = 0.6)]
+        #[arg(long, default_value_t = 0.6, value_parser = parse_probability)]
         low_confidence: f64,
         /// Tracks whose bird and rotorcraft probabilities both reach this are listed.
-        #[arg(long, default_value_t = 0.2)]
+        #[arg(long, default_value_t = 0.2, value_parser = parse_probability)]
         doubt: f64,
         /// At most this many tracks get pictures (most doubtful first).
         #[arg(long, default_value_t = 150)]
@@ -186,7 +186,7 @@ struct ModelArgs {
     #[arg(long)]
     model: Option<PathBuf>,
     /// Tracks whose confidence is below this are labelled `unknown`.
-    #[arg(long, default_value_t = 0.0)]
+    #[arg(long, default_value_t = 0.0, value_parser = parse_probability)]
     min_confidence: f64,
     /// Channel to read.
     #[arg(long, default_value_t = 0)]
@@ -228,8 +228,36 @@ struct ProcessArgs {
     #[arg(long, default_value = "ca", value_parser = parse_cfar)]
     cfar: CfarKind,
     /// CFAR false-alarm probability per cell.
-    #[arg(long, default_value_t = 1e-6)]
+    #[arg(long, default_value_t = 1e-6, value_parser = parse_pfa)]
     pfa: f64,
+}
+
+/// A probability from 0 to 1 (a usage error otherwise: exit status 2).
+fn parse_probability(s: &str) -> std::result::Result<f64, String> {
+    match s.parse::<f64>() {
+        Ok(v) if (0.0..=1.0).contains(&v) => Ok(v),
+        _ => Err(format!("{s}: expected a probability from 0 to 1")),
+    }
+}
+
+/// A share strictly between 0 and 1.
+fn parse_fraction(s: &str) -> std::result::Result<f64, String> {
+    match s.parse::<f64>() {
+        Ok(v) if v > 0.0 && v < 1.0 => Ok(v),
+        _ => Err(format!(
+            "{s}: expected a share between 0 and 1 (both excluded)"
+        )),
+    }
+}
+
+/// A false-alarm probability strictly between 0 and 0.5.
+fn parse_pfa(s: &str) -> std::result::Result<f64, String> {
+    match s.parse::<f64>() {
+        Ok(v) if v > 0.0 && v < 0.5 => Ok(v),
+        _ => Err(format!(
+            "{s}: expected a false-alarm probability between 0 and 0.5 (both excluded)"
+        )),
+    }
 }
 
 fn parse_canceller(s: &str) -> std::result::Result<Canceller, String> {
@@ -457,9 +485,11 @@ fn run(cli: Cli) -> Result<ExitCode> {
             let text = report::features_csv::to_csv(&rows);
             rotorsift::recording::write_atomic(&out, text.as_bytes())?;
             eprintln!(
-                "rotorsift: {} tracks from {} recordings written to {}",
+                "rotorsift: {} track{} from {} recording{} written to {}",
                 rows.len(),
+                if rows.len() == 1 { "" } else { "s" },
                 analyses.len(),
+                if analyses.len() == 1 { "" } else { "s" },
                 out.display()
             );
             Ok(exit_code(failed))
