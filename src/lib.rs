@@ -3,6 +3,7 @@
 //! `recording` → `frontend` → `detect` → `features` → `model` → `report`, with `simulate`
 //! beside them and `pipeline` composing the stages.
 
+pub mod atomic;
 pub mod detect;
 pub mod error;
 pub mod features;
@@ -13,6 +14,7 @@ pub mod recording;
 pub mod report;
 pub mod simulate;
 
+pub use atomic::{write_atomic, AtomicFile};
 pub use error::{Error, Result};
 
 /// Speed of light in vacuum, m/s (exact, SI).

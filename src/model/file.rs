@@ -1,12 +1,11 @@
 //! The model file: versioned JSON holding the forest with the class and feature names
 //! and the feature-extraction settings it was trained with, so a model is only applied
-//! to features computed the same way. Written atomically (temp file + rename).
+//! to features computed the same way. Written atomically ([`crate::atomic`]).
 
 use super::forest::Forest;
 use crate::error::{Error, Result};
 use serde::{Deserialize, Serialize};
 use serde_json::Value;
-use std::io::Write;
 use std::path::Path;
 
 /// Value of the `format` field.
@@ -99,30 +98,9 @@ impl ModelFile {
     /// Writes the model to `path`: first to a temporary file in the same directory, then
     /// renamed over `path`, so an existing file is either kept or replaced whole.
     pub fn save(&self, path: &Path) -> Result<()> {
-        let text = self.to_json_string()?;
-        let dir = match path.parent() {
-            Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
-            _ => std::path::PathBuf::from("."),
-        };
-        let name = path
-            .file_name()
-            .ok_or_else(|| Error::format(path, "model path has no file name"))?;
-        let tmp = dir.join(format!(
-            ".{}.tmp-{}",
-            name.to_string_lossy(),
-            std::process::id()
-        ));
-        let write = || -> std::io::Result<()> {
-            let mut f = std::fs::File::create(&tmp)?;
-            f.write_all(text.as_bytes())?;
-            f.write_all(b"\n")?;
-            f.sync_all()?;
-            std::fs::rename(&tmp, path)
-        };
-        write().map_err(|e| {
-            let _ = std::fs::remove_file(&tmp);
-            Error::io(path, e)
-        })
+        let mut text = self.to_json_string()?;
+        text.push('\n');
+        crate::atomic::write_atomic(path, text.as_bytes())
     }
 
     /// Reads a model file.
