@@ -8,6 +8,7 @@ pub mod detect;
 pub mod error;
 pub mod features;
 pub mod frontend;
+pub mod limits;
 pub mod model;
 pub mod pipeline;
 pub mod recording;

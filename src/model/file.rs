@@ -105,7 +105,8 @@ impl ModelFile {
 
     /// Reads a model file.
     pub fn load(path: &Path) -> Result<ModelFile> {
-        let s = std::fs::read_to_string(path).map_err(|e| Error::io(path, e))?;
+        let s =
+            crate::limits::read_text_capped(path, crate::limits::MAX_MODEL_BYTES, "model file")?;
         Self::from_json_str(&s, path)
     }
 
@@ -116,6 +117,7 @@ impl ModelFile {
         // rather than by a field this build does not know
         let v: Value = serde_json::from_str(s)
             .map_err(|e| Error::format(origin, format!("not valid JSON: {e}")))?;
+        check_sizes(&v, origin)?;
         if v.get("format").and_then(Value::as_str) != Some(MODEL_FORMAT) {
             return Err(Error::format(
                 origin,
@@ -181,6 +183,59 @@ impl ModelFile {
         }
         Ok(())
     }
+}
+
+/// Caps on a model's JSON before it is turned into a forest (docs/output-format.md,
+/// "Limits"): nesting depth, names, trees, nodes per tree, classes and features.
+fn check_sizes(v: &Value, origin: &Path) -> Result<()> {
+    use crate::limits::*;
+    check_json_depth(v, origin)?;
+    check_len(v.get("class_names"), "class_names", MAX_CLASSES, origin)?;
+    check_len(
+        v.get("feature_names"),
+        "feature_names",
+        MAX_FEATURES,
+        origin,
+    )?;
+    let Some(forest) = v.get("forest") else {
+        return Ok(());
+    };
+    for (key, max) in [("n_classes", MAX_CLASSES), ("n_features", MAX_FEATURES)] {
+        if let Some(n) = forest.get(key).and_then(Value::as_u64) {
+            if n > max as u64 {
+                return Err(Error::format(
+                    origin,
+                    format!("forest.{key} = {n}: at most {max} allowed"),
+                ));
+            }
+        }
+    }
+    check_len(
+        forest.get("importances"),
+        "forest.importances",
+        MAX_FEATURES,
+        origin,
+    )?;
+    check_len(forest.get("trees"), "forest.trees", MAX_TREES, origin)?;
+    if let Some(Value::Array(trees)) = forest.get("trees") {
+        for (i, t) in trees.iter().enumerate() {
+            for key in ["feature", "threshold", "child"] {
+                check_len(
+                    t.get(key),
+                    &format!("forest.trees[{i}].{key}"),
+                    MAX_TREE_NODES,
+                    origin,
+                )?;
+            }
+            check_len(
+                t.get("votes"),
+                &format!("forest.trees[{i}].votes"),
+                MAX_TREE_NODES.saturating_mul(MAX_CLASSES),
+                origin,
+            )?;
+        }
+    }
+    Ok(())
 }
 
 /// First place where two JSON values differ: (dotted path, value in a, value in b);
