@@ -3,16 +3,19 @@
 //! `recording` → `frontend` → `detect` → `features` → `model` → `report`, with `simulate`
 //! beside them and `pipeline` composing the stages.
 
+pub mod atomic;
 pub mod detect;
 pub mod error;
 pub mod features;
 pub mod frontend;
+pub mod limits;
 pub mod model;
 pub mod pipeline;
 pub mod recording;
 pub mod report;
 pub mod simulate;
 
+pub use atomic::{write_atomic, AtomicFile};
 pub use error::{Error, Result};
 
 /// Speed of light in vacuum, m/s (exact, SI).

@@ -334,20 +334,16 @@ fn analyse_all(
     with_features: bool,
 ) -> Result<(Vec<pipeline::RecordingAnalysis>, bool)> {
     let paths = resolve_inputs(inputs)?;
-    let mut out = Vec::new();
-    let mut failed = false;
-    for p in &paths {
-        let r = RecordingMeta::open(p)
-            .and_then(|m| pipeline::analyse(&m, channel, settings, with_features));
-        match r {
-            Ok(a) => out.push(a),
-            Err(e) => {
-                report_bad(&e);
-                failed = true;
-            }
-        }
-    }
-    Ok((out, failed))
+    let (out, outcome) = pipeline::run_batch(
+        &paths,
+        |p| {
+            RecordingMeta::open(p)
+                .and_then(|m| pipeline::analyse(&m, channel, settings, with_features))
+        },
+        &mut |e| report_bad(e),
+    );
+    report_summary(&outcome);
+    Ok((out, outcome.any_failed()))
 }
 
 /// Feature rows of every track, with the label of the annotation it matches.
@@ -422,6 +418,13 @@ fn emit(text: &str) -> Result<()> {
     Ok(())
 }
 
+/// The batch's summary line on stderr, when some of several recordings failed.
+fn report_summary(outcome: &pipeline::BatchOutcome) {
+    if let Some(line) = outcome.summary() {
+        eprintln!("{line}");
+    }
+}
+
 /// Reports one bad file of a batch on stderr; the batch goes on.
 fn report_bad(e: &dyn std::fmt::Display) {
     eprintln!("rotorsift: error: {e}");
@@ -431,17 +434,12 @@ fn run(cli: Cli) -> Result<ExitCode> {
     match cli.command {
         Command::Info { inputs, format } => {
             let paths = resolve_inputs(&inputs)?;
-            let mut records = Vec::new();
-            let mut failed = false;
-            for p in &paths {
-                match RecordingMeta::open(p) {
-                    Ok(m) => records.push(report::info::InfoRecord::of(&m)),
-                    Err(e) => {
-                        report_bad(&e);
-                        failed = true;
-                    }
-                }
-            }
+            let (records, outcome) =
+                pipeline::run_batch(&paths, report::info::InfoRecord::read, &mut |e| {
+                    report_bad(e)
+                });
+            report_summary(&outcome);
+            let failed = outcome.any_failed();
             let text = match format {
                 Format::Json => {
                     serde_json::to_string_pretty(&report::info::to_json(&records))

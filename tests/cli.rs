@@ -229,11 +229,22 @@ fn malformed_recordings_are_refused_one_line_each() {
         }
     }
 
-    // A batch: one good, one bad. The good recording is reported; exit status 1.
+    // A batch: one good, one bad. The good recording is reported; exit status 1; stderr
+    // holds the bad one's error line and the summary line.
     let g = good.to_str().unwrap();
     for (sub, bad_one) in [("info", &dtype), ("detect", &noext)] {
         let o = run(&[sub, g, bad_one.to_str().unwrap(), "--format", "json"]);
-        assert_one_error(&o, 1, &[bad_one.file_stem().unwrap().to_str().unwrap()]);
+        assert_no_panic(&o);
+        assert_eq!(o.status.code(), Some(1), "{sub}");
+        let err = stderr(&o);
+        let lines: Vec<&str> = err.lines().collect();
+        assert_eq!(lines.len(), 2, "{sub}: {err}");
+        assert!(
+            lines[0].starts_with("rotorsift: error:")
+                && lines[0].contains(bad_one.file_stem().unwrap().to_str().unwrap()),
+            "{sub}: {err}"
+        );
+        assert_eq!(lines[1], "rotorsift: 1 of 2 recordings failed", "{sub}");
         let v: Value = serde_json::from_slice(&o.stdout).expect("stdout JSON");
         let recs = v["recordings"].as_array().expect("recordings");
         assert_eq!(recs.len(), 1, "{sub}: {v}");

@@ -331,9 +331,11 @@ fn written_recordings_read_back() {
         for (a, b) in b.data.iter().zip(&samples) {
             assert!((a - b).norm() <= tol * 1.5, "{dt:?}");
         }
-        assert!(!dir
-            .path()
-            .join(format!("{}.sigmf-data.tmp", dt.as_str()))
-            .exists());
+        let stray: Vec<_> = std::fs::read_dir(dir.path())
+            .unwrap()
+            .flatten()
+            .filter(|e| e.file_name().to_string_lossy().ends_with(".tmp"))
+            .collect();
+        assert!(stray.is_empty(), "temporaries left: {stray:?}");
     }
 }

@@ -1,13 +1,12 @@
 //! The model file: versioned JSON holding the forest with the class and feature names
 //! and the feature-extraction settings it was trained with, so a model is only applied
-//! to features computed the same way. Written atomically (temp file + rename).
+//! to features computed the same way. Written atomically ([`crate::atomic`]).
 
 use super::domain::Domain;
 use super::forest::Forest;
 use crate::error::{Error, Result};
 use serde::{Deserialize, Serialize};
 use serde_json::Value;
-use std::io::Write;
 use std::path::Path;
 
 /// Value of the `format` field.
@@ -114,35 +113,15 @@ impl ModelFile {
     /// Writes the model to `path`: first to a temporary file in the same directory, then
     /// renamed over `path`, so an existing file is either kept or replaced whole.
     pub fn save(&self, path: &Path) -> Result<()> {
-        let text = self.to_json_string()?;
-        let dir = match path.parent() {
-            Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
-            _ => std::path::PathBuf::from("."),
-        };
-        let name = path
-            .file_name()
-            .ok_or_else(|| Error::format(path, "model path has no file name"))?;
-        let tmp = dir.join(format!(
-            ".{}.tmp-{}",
-            name.to_string_lossy(),
-            std::process::id()
-        ));
-        let write = || -> std::io::Result<()> {
-            let mut f = std::fs::File::create(&tmp)?;
-            f.write_all(text.as_bytes())?;
-            f.write_all(b"\n")?;
-            f.sync_all()?;
-            std::fs::rename(&tmp, path)
-        };
-        write().map_err(|e| {
-            let _ = std::fs::remove_file(&tmp);
-            Error::io(path, e)
-        })
+        let mut text = self.to_json_string()?;
+        text.push('\n');
+        crate::atomic::write_atomic(path, text.as_bytes())
     }
 
     /// Reads a model file.
     pub fn load(path: &Path) -> Result<ModelFile> {
-        let s = std::fs::read_to_string(path).map_err(|e| Error::io(path, e))?;
+        let s =
+            crate::limits::read_text_capped(path, crate::limits::MAX_MODEL_BYTES, "model file")?;
         Self::from_json_str(&s, path)
     }
 
@@ -153,6 +132,7 @@ impl ModelFile {
         // rather than by a field this build does not know
         let v: Value = serde_json::from_str(s)
             .map_err(|e| Error::format(origin, format!("not valid JSON: {e}")))?;
+        check_sizes(&v, origin)?;
         if v.get("format").and_then(Value::as_str) != Some(MODEL_FORMAT) {
             return Err(Error::format(
                 origin,
@@ -218,6 +198,59 @@ impl ModelFile {
         }
         Ok(())
     }
+}
+
+/// Caps on a model's JSON before it is turned into a forest (docs/output-format.md,
+/// "Limits"): nesting depth, names, trees, nodes per tree, classes and features.
+fn check_sizes(v: &Value, origin: &Path) -> Result<()> {
+    use crate::limits::*;
+    check_json_depth(v, origin)?;
+    check_len(v.get("class_names"), "class_names", MAX_CLASSES, origin)?;
+    check_len(
+        v.get("feature_names"),
+        "feature_names",
+        MAX_FEATURES,
+        origin,
+    )?;
+    let Some(forest) = v.get("forest") else {
+        return Ok(());
+    };
+    for (key, max) in [("n_classes", MAX_CLASSES), ("n_features", MAX_FEATURES)] {
+        if let Some(n) = forest.get(key).and_then(Value::as_u64) {
+            if n > max as u64 {
+                return Err(Error::format(
+                    origin,
+                    format!("forest.{key} = {n}: at most {max} allowed"),
+                ));
+            }
+        }
+    }
+    check_len(
+        forest.get("importances"),
+        "forest.importances",
+        MAX_FEATURES,
+        origin,
+    )?;
+    check_len(forest.get("trees"), "forest.trees", MAX_TREES, origin)?;
+    if let Some(Value::Array(trees)) = forest.get("trees") {
+        for (i, t) in trees.iter().enumerate() {
+            for key in ["feature", "threshold", "child"] {
+                check_len(
+                    t.get(key),
+                    &format!("forest.trees[{i}].{key}"),
+                    MAX_TREE_NODES,
+                    origin,
+                )?;
+            }
+            check_len(
+                t.get("votes"),
+                &format!("forest.trees[{i}].votes"),
+                MAX_TREE_NODES.saturating_mul(MAX_CLASSES),
+                origin,
+            )?;
+        }
+    }
+    Ok(())
 }
 
 /// First place where two JSON values differ: (dotted path, value in a, value in b);

@@ -2,6 +2,7 @@
 //! command line, the benchmarks and the tests all run the same path.
 
 pub mod audit;
+pub mod batch;
 pub mod classify;
 pub mod matching;
 pub mod pictures;
@@ -11,6 +12,7 @@ pub mod tracks;
 
 use serde::{Deserialize, Serialize};
 
+pub use batch::{run_batch, BatchOutcome};
 pub use matching::{match_tracks, matches, TrackSpan};
 pub use settings::DetectSettings;
 pub use signals::{track_signals, TrackSignal};

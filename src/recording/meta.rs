@@ -135,7 +135,11 @@ impl RecordingMeta {
 
     /// Reads and validates `NAME.sigmf-meta` and checks the data file's length.
     pub fn open(meta_path: &Path) -> Result<Self> {
-        let text = std::fs::read_to_string(meta_path).map_err(|e| Error::io(meta_path, e))?;
+        let text = crate::limits::read_text_capped(
+            meta_path,
+            crate::limits::MAX_META_BYTES,
+            "metadata file",
+        )?;
         let data_path = data_path_of(meta_path);
         let data_len = std::fs::metadata(&data_path)
             .map_err(|e| Error::io(&data_path, e))?
@@ -148,6 +152,7 @@ impl RecordingMeta {
         let bad = |msg: String| Error::format(meta_path, msg);
         let root: Value =
             serde_json::from_str(text).map_err(|e| bad(format!("not valid JSON: {e}")))?;
+        crate::limits::check_json_depth(&root, meta_path)?;
         let global = root
             .get("global")
             .and_then(Value::as_object)
@@ -174,15 +179,29 @@ impl RecordingMeta {
 
         let num_channels = match global.get("core:num_channels") {
             None => 1,
-            Some(_) => g.uint_req("core:num_channels", 1)? as usize,
+            Some(_) => g.uint_req("core:num_channels", 1)?,
         };
+        if num_channels > crate::limits::MAX_CHANNELS {
+            return Err(bad(format!(
+                "global core:num_channels = {num_channels}: at most {} allowed",
+                crate::limits::MAX_CHANNELS
+            )));
+        }
+        let num_channels = num_channels as usize;
         let wf_name = g.str_req("rotorsift:waveform")?;
         let waveform = Waveform::parse(wf_name).ok_or_else(|| {
             bad(format!(
                 "global rotorsift:waveform = \"{wf_name}\": expected \"fmcw-beat\" or \"range-profile\""
             ))
         })?;
-        let n = g.uint_req("rotorsift:samples_per_chirp", 8)? as usize;
+        let n = g.uint_req("rotorsift:samples_per_chirp", 8)?;
+        if n > crate::limits::MAX_SAMPLES_PER_CHIRP as u64 {
+            return Err(bad(format!(
+                "global rotorsift:samples_per_chirp = {n}: at most {} allowed",
+                crate::limits::MAX_SAMPLES_PER_CHIRP
+            )));
+        }
+        let n = n as usize;
         let t = g.pos_req("rotorsift:chirp_interval_s")?;
         let (sample_rate_hz, range_axis) = match waveform {
             Waveform::FmcwBeat => (
@@ -247,6 +266,13 @@ impl RecordingMeta {
             let list = list
                 .as_array()
                 .ok_or_else(|| bad("\"annotations\" is not an array".into()))?;
+            if list.len() > crate::limits::MAX_ANNOTATIONS {
+                return Err(bad(format!(
+                    "annotations has {} entries: at most {} allowed",
+                    list.len(),
+                    crate::limits::MAX_ANNOTATIONS
+                )));
+            }
             for (i, a) in list.iter().enumerate() {
                 let at = format!("annotations[{i}]");
                 let obj = a

@@ -9,8 +9,11 @@ mod params;
 mod reader;
 mod writer;
 
+pub use crate::atomic::write_atomic;
 pub use input::resolve_inputs;
 pub use meta::{data_path_of, to_json, Annotation, DataType, RecordingMeta};
 pub use params::{RadarParams, RangeAxis, Waveform};
-pub use reader::{ChirpBlock, ChirpReader};
-pub use writer::{with_suffix, write_atomic, RecordingWriter};
+pub use reader::{
+    decode_checked, scan_samples, ChirpBlock, ChirpReader, SampleStats, MAX_SAMPLE_MAGNITUDE,
+};
+pub use writer::{with_suffix, RecordingWriter};

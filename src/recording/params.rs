@@ -77,12 +77,16 @@ impl RadarParams {
         };
         pos("core:frequency", self.carrier_hz)?;
         pos("rotorsift:chirp_interval_s", self.chirp_interval_s)?;
-        ensure(self.samples_per_chirp >= 8, || {
-            format!(
-                "rotorsift:samples_per_chirp = {}: expected an integer >= 8",
-                self.samples_per_chirp
-            )
-        })?;
+        ensure(
+            (8..=crate::limits::MAX_SAMPLES_PER_CHIRP).contains(&self.samples_per_chirp),
+            || {
+                format!(
+                    "rotorsift:samples_per_chirp = {}: expected an integer in 8..={}",
+                    self.samples_per_chirp,
+                    crate::limits::MAX_SAMPLES_PER_CHIRP
+                )
+            },
+        )?;
         match self.range_axis {
             RangeAxis::FmcwBeat {
                 sweep_bandwidth_hz,

@@ -1,5 +1,8 @@
 //! Streaming reader: yields blocks of whole chirps of one channel without reading the whole
 //! data file, so memory stays flat in recording length. One byte buffer is reused.
+//! Bad samples are counted ([`SampleStats`]): a non-finite one (NaN, infinite, or so large
+//! that its power overflows single precision) is replaced by 0 before anything else sees
+//! it; a clipped one (an integer part at the format's full-scale extreme) is kept as is.
 
 use std::fs::File;
 use std::io::{BufReader, Read, Seek, SeekFrom};
@@ -31,6 +34,32 @@ impl ChirpBlock {
     }
 }
 
+/// Magnitude of a float sample part beyond which it counts as non-finite: its power
+/// (about 1e30 at most) and sums of many such powers stay inside single precision.
+pub const MAX_SAMPLE_MAGNITUDE: f32 = 1.0e15;
+
+/// Counts of bad samples (complex samples; one bad part makes the sample bad).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, serde::Serialize)]
+pub struct SampleStats {
+    /// Complex samples looked at.
+    pub samples: u64,
+    /// Samples with a NaN, infinite or out-of-range (beyond ±[`MAX_SAMPLE_MAGNITUDE`])
+    /// part; each was replaced by 0.
+    pub nonfinite: u64,
+    /// Samples of an integer format with a part at full scale (ci16: -32768 or 32767;
+    /// ci8: -128 or 127): the receiver was saturated. Float formats have none.
+    pub clipped: u64,
+}
+
+impl SampleStats {
+    /// Adds `other`'s counts.
+    pub fn add(&mut self, other: &SampleStats) {
+        self.samples += other.samples;
+        self.nonfinite += other.nonfinite;
+        self.clipped += other.clipped;
+    }
+}
+
 /// Reads chirps of one channel from a recording's data file, block by block.
 pub struct ChirpReader {
     file: BufReader<File>,
@@ -38,6 +67,7 @@ pub struct ChirpReader {
     channel: usize,
     next_chirp: usize,
     bytes: Vec<u8>,
+    stats: SampleStats,
 }
 
 impl ChirpReader {
@@ -60,12 +90,18 @@ impl ChirpReader {
             channel,
             next_chirp: 0,
             bytes: Vec::new(),
+            stats: SampleStats::default(),
         })
     }
 
     /// The recording's metadata.
     pub fn meta(&self) -> &RecordingMeta {
         &self.meta
+    }
+
+    /// Bad-sample counts of the chirps read so far (this channel).
+    pub fn stats(&self) -> SampleStats {
+        self.stats
     }
 
     /// Positions the reader at chirp `m` (the next block starts there).
@@ -84,7 +120,7 @@ impl ChirpReader {
     /// (0 at the end). `block.data` is resized, so one block can be reused.
     pub fn read_block(&mut self, block: &mut ChirpBlock, max_chirps: usize) -> Result<usize> {
         let n = self.meta.params.samples_per_chirp;
-        let chirps = max_chirps.min(self.meta.chirps - self.next_chirp);
+        let chirps = max_chirps.min(self.meta.chirps.saturating_sub(self.next_chirp));
         let dt = self.meta.datatype;
         let nch = self.meta.num_channels;
         let frame = dt.bytes_per_sample() * nch;
@@ -99,11 +135,66 @@ impl ChirpReader {
         block.data.reserve(chirps * n);
         let off = self.channel * dt.bytes_per_sample();
         for s in self.bytes.chunks_exact(frame) {
-            block.data.push(decode(dt, &s[off..]));
+            block
+                .data
+                .push(decode_checked(dt, &s[off..], &mut self.stats));
         }
         self.next_chirp += chirps;
         Ok(chirps)
     }
+}
+
+/// Decodes one complex sample at the start of `b`, counting it into `stats`: a
+/// non-finite sample comes back as 0, a clipped one as stored.
+pub fn decode_checked(dt: DataType, b: &[u8], stats: &mut SampleStats) -> Complex32 {
+    stats.samples += 1;
+    match dt {
+        DataType::Ci16Le => {
+            let full = |x: i16| x == i16::MIN || x == i16::MAX;
+            if full(i16::from_le_bytes([b[0], b[1]])) || full(i16::from_le_bytes([b[2], b[3]])) {
+                stats.clipped += 1;
+            }
+            decode(dt, b)
+        }
+        DataType::Ci8 => {
+            let full = |x: u8| x as i8 == i8::MIN || x as i8 == i8::MAX;
+            if full(b[0]) || full(b[1]) {
+                stats.clipped += 1;
+            }
+            decode(dt, b)
+        }
+        DataType::Cf32Le | DataType::Cf64Le => {
+            let z = decode(dt, b);
+            let ok = |x: f32| x.is_finite() && x.abs() <= MAX_SAMPLE_MAGNITUDE;
+            if ok(z.re) && ok(z.im) {
+                z
+            } else {
+                stats.nonfinite += 1;
+                Complex32::new(0.0, 0.0)
+            }
+        }
+    }
+}
+
+/// Counts the bad samples of every channel of a recording, reading its data file once
+/// in blocks (memory flat in length).
+pub fn scan_samples(meta: &RecordingMeta) -> Result<SampleStats> {
+    let mut f = File::open(&meta.data_path).map_err(|e| Error::io(&meta.data_path, e))?;
+    let bps = meta.datatype.bytes_per_sample();
+    let mut buf = vec![0u8; bps * (1 << 16)];
+    let mut stats = SampleStats::default();
+    let mut left =
+        meta.chirps as u64 * meta.params.samples_per_chirp as u64 * meta.num_channels as u64;
+    while left > 0 {
+        let k = left.min((buf.len() / bps) as u64) as usize;
+        let b = &mut buf[..k * bps];
+        f.read_exact(b).map_err(|e| Error::io(&meta.data_path, e))?;
+        for s in b.chunks_exact(bps) {
+            decode_checked(meta.datatype, s, &mut stats);
+        }
+        left -= k as u64;
+    }
+    Ok(stats)
 }
 
 /// Decodes one complex sample at the start of `b`.

@@ -1,9 +1,9 @@
-//! Streaming SigMF writer: chirps are appended to a temporary data file; `finish` writes
-//! the metadata and renames both into place, so a failed run never leaves a half-written
-//! recording or destroys an earlier one.
+//! Streaming SigMF writer: chirps are appended to an atomic data file
+//! ([`crate::atomic::AtomicFile`]); `finish` moves the data file into place, then writes the
+//! metadata the same way, so a failed or killed run never leaves a half-written recording
+//! or a stray temporary, and an earlier recording of the same name stays whole until its
+//! replacement is complete.
 
-use std::fs::File;
-use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 
 use rustfft::num_complex::Complex32;
@@ -12,13 +12,13 @@ use serde_json::{Map, Value};
 use super::meta::{to_json, Annotation, DataType};
 use super::params::RadarParams;
 use super::reader::encode;
+use crate::atomic::{write_atomic, AtomicFile};
 use crate::error::{Error, Result};
 
 /// Writes one recording `BASE.sigmf-data` + `BASE.sigmf-meta`.
 pub struct RecordingWriter {
     base: PathBuf,
-    tmp_data: PathBuf,
-    out: BufWriter<File>,
+    out: AtomicFile,
     params: RadarParams,
     datatype: DataType,
     scale: f32,
@@ -36,12 +36,10 @@ impl RecordingWriter {
         scale: f32,
     ) -> Result<Self> {
         params.check()?;
-        let tmp_data = with_suffix(base, ".sigmf-data.tmp");
-        let f = File::create(&tmp_data).map_err(|e| Error::io(&tmp_data, e))?;
+        let out = AtomicFile::create(&with_suffix(base, ".sigmf-data"))?;
         Ok(RecordingWriter {
             base: base.to_path_buf(),
-            tmp_data,
-            out: BufWriter::with_capacity(1 << 16, f),
+            out,
             params: params.clone(),
             datatype,
             scale,
@@ -63,9 +61,7 @@ impl RecordingWriter {
         for &z in samples {
             encode(self.datatype, z * self.scale, &mut self.buf);
         }
-        self.out
-            .write_all(&self.buf)
-            .map_err(|e| Error::io(&self.tmp_data, e))?;
+        self.out.write_all(&self.buf)?;
         self.chirps += samples.len() / n;
         Ok(())
     }
@@ -83,26 +79,19 @@ impl RecordingWriter {
     ) -> Result<PathBuf> {
         let RecordingWriter {
             base,
-            tmp_data,
             out,
             params,
             datatype,
             ..
         } = self;
-        let f = out
-            .into_inner()
-            .map_err(|e| Error::io(&tmp_data, e.into_error()))?;
-        f.sync_all().map_err(|e| Error::io(&tmp_data, e))?;
-        drop(f);
         let mut anns = annotations.to_vec();
         anns.sort_by_key(|a| (a.chirp_start, a.chirp_count));
         let meta = to_json(&params, datatype, &anns, extra_global);
         let meta_path = with_suffix(&base, ".sigmf-meta");
-        let data_path = with_suffix(&base, ".sigmf-data");
         let text =
             serde_json::to_string_pretty(&meta).map_err(|e| Error::Invalid(e.to_string()))?;
+        out.commit()?;
         write_atomic(&meta_path, text.as_bytes())?;
-        std::fs::rename(&tmp_data, &data_path).map_err(|e| Error::io(&data_path, e))?;
         Ok(meta_path)
     }
 }
@@ -112,14 +101,4 @@ pub fn with_suffix(base: &Path, suffix: &str) -> PathBuf {
     let mut s = base.as_os_str().to_os_string();
     s.push(suffix);
     PathBuf::from(s)
-}
-
-/// Writes `bytes` to `path` through a temporary file in the same directory and a rename.
-pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
-    let tmp = with_suffix(path, ".tmp");
-    let mut f = File::create(&tmp).map_err(|e| Error::io(&tmp, e))?;
-    f.write_all(bytes).map_err(|e| Error::io(&tmp, e))?;
-    f.sync_all().map_err(|e| Error::io(&tmp, e))?;
-    drop(f);
-    std::fs::rename(&tmp, path).map_err(|e| Error::io(path, e))
 }

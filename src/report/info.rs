@@ -1,12 +1,14 @@
 //! `rotorsift info`: what each recording holds — radar settings, derived figures,
-//! duration, labels per class (docs/output-format.md, "info --format json").
+//! duration, labels per class, and the bad samples of the data file (docs/output-format.md,
+//! "info").
 
 use std::collections::BTreeMap;
 
 use serde::Serialize;
 
 use super::Table;
-use crate::recording::RecordingMeta;
+use crate::error::Result;
+use crate::recording::{scan_samples, RecordingMeta, SampleStats};
 
 /// One recording as `info --format json` prints it.
 #[derive(Debug, Clone, Serialize)]
@@ -33,11 +35,22 @@ pub struct InfoRecord {
     pub velocity_resolution_256_mps: f64,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub site: Option<String>,
+    /// Samples (all channels) with a NaN, infinite or out-of-range part, read as 0.
+    pub nonfinite_samples: u64,
+    /// Samples (all channels) with a part at the integer format's full scale.
+    pub clipped_samples: u64,
 }
 
 impl InfoRecord {
-    /// Collects the figures of one recording.
-    pub fn of(meta: &RecordingMeta) -> Self {
+    /// Opens the recording at `meta_path`, counts its bad samples and collects its figures.
+    pub fn read(meta_path: &std::path::Path) -> Result<Self> {
+        let meta = RecordingMeta::open(meta_path)?;
+        let stats = scan_samples(&meta)?;
+        Ok(Self::of(&meta, &stats))
+    }
+
+    /// Collects the figures of one recording with its bad-sample counts.
+    pub fn of(meta: &RecordingMeta, stats: &SampleStats) -> Self {
         let p = &meta.params;
         InfoRecord {
             path: meta.meta_path.display().to_string(),
@@ -60,6 +73,8 @@ impl InfoRecord {
             first_blind_speed_mps: p.blind_speed_mps(1),
             velocity_resolution_256_mps: p.velocity_resolution_mps(256),
             site: meta.site.clone(),
+            nonfinite_samples: stats.nonfinite,
+            clipped_samples: stats.clipped,
         }
     }
 }
@@ -82,6 +97,8 @@ pub fn to_table(records: &[InfoRecord]) -> Table {
         "cell_m",
         "max_range_m",
         "v_unamb_mps",
+        "nonfinite",
+        "clipped",
         "labels",
     ]);
     for r in records {
@@ -97,6 +114,8 @@ pub fn to_table(records: &[InfoRecord]) -> Table {
             format!("{:.3}", r.range_cell_m),
             format!("{:.1}", r.max_range_m),
             format!("{:.2}", r.unambiguous_velocity_mps),
+            r.nonfinite_samples.to_string(),
+            r.clipped_samples.to_string(),
             if labels.is_empty() {
                 "-".into()
             } else {

@@ -119,10 +119,10 @@ pub fn render_png(h: &HeatMap) -> Result<Vec<u8>> {
     Ok(out)
 }
 
-/// Draws `h` and writes it to `path` as PNG (temp file, then rename).
+/// Draws `h` and writes it to `path` as PNG, atomically ([`crate::atomic`]).
 pub fn write_png(h: &HeatMap, path: &Path) -> Result<()> {
     let bytes = render_png(h)?;
-    crate::recording::write_atomic(path, &bytes)
+    crate::atomic::write_atomic(path, &bytes)
 }
 
 fn draw(h: &HeatMap, buf: &mut [u8]) -> std::result::Result<(), String> {

@@ -655,6 +655,22 @@ impl Scene {
         let f: SceneFile =
             toml::from_str(text).map_err(|e| Error::Invalid(toml_error_line(text, &e)))?;
         let base_seed = f.seed.unwrap_or(0);
+        use crate::limits::{MAX_SCENE_OBJECTS, MAX_SCENE_RUNS};
+        if f.run.len() > MAX_SCENE_RUNS {
+            return Err(Error::Invalid(format!(
+                "[[run]] has {} entries: at most {MAX_SCENE_RUNS} allowed",
+                f.run.len()
+            )));
+        }
+        for (key, n) in std::iter::once(("[[object]]", f.object.len()))
+            .chain(f.run.iter().map(|r| ("[[run.object]]", r.object.len())))
+        {
+            if n > MAX_SCENE_OBJECTS {
+                return Err(Error::Invalid(format!(
+                    "{key} has {n} entries: at most {MAX_SCENE_OBJECTS} allowed"
+                )));
+            }
+        }
         let mut runs = Vec::new();
         if f.run.is_empty() {
             let name = f.name.ok_or_else(|| {
@@ -708,7 +724,8 @@ impl Scene {
 
     /// Reads and validates a scene file; errors name the file.
     pub fn load(path: &Path) -> Result<Vec<Scene>> {
-        let text = std::fs::read_to_string(path).map_err(|e| Error::io(path, e))?;
+        let text =
+            crate::limits::read_text_capped(path, crate::limits::MAX_SCENE_BYTES, "scene file")?;
         Scene::parse_all(&text).map_err(|e| match e {
             Error::Invalid(msg) => Error::format(path, msg),
             other => other,
