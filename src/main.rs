@@ -18,9 +18,16 @@ use rotorsift::report::{self, Format};
 #[derive(Parser)]
 #[command(name = "rotorsift", version, about, long_about = None)]
 struct Cli {
+    /// Recordings processed at once (0 = one per core); results are the same for any
+    /// number, byte for byte.
+    #[arg(long, global = true, default_value_t = 0)]
+    jobs: usize,
     #[command(subcommand)]
     command: Command,
 }
+
+/// `--jobs`, set once by `run` (read by the batch loops).
+static JOBS: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
 
 #[derive(Subcommand)]
 enum Command {
@@ -334,8 +341,9 @@ fn analyse_all(
     with_features: bool,
 ) -> Result<(Vec<pipeline::RecordingAnalysis>, bool)> {
     let paths = resolve_inputs(inputs)?;
-    let (out, outcome) = pipeline::run_batch(
+    let (out, outcome) = pipeline::run_batch_parallel(
         &paths,
+        JOBS.load(std::sync::atomic::Ordering::Relaxed),
         |p| {
             RecordingMeta::open(p)
                 .and_then(|m| pipeline::analyse(&m, channel, settings, with_features))
@@ -388,7 +396,23 @@ fn print_tracks(report: &report::tracks::TrackReport, format: Format) -> Result<
 }
 
 fn main() -> ExitCode {
-    let cli = Cli::parse();
+    let cli = match Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) if !e.use_stderr() => {
+            // --help and --version: the text on stdout, success
+            let _ = e.print();
+            return ExitCode::SUCCESS;
+        }
+        Err(e) if e.kind() == clap::error::ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand => {
+            // no subcommand: the help, as a usage error
+            let _ = e.print();
+            return ExitCode::from(2);
+        }
+        Err(e) => {
+            eprintln!("rotorsift: error: {}", one_line_usage_error(&e.to_string()));
+            return ExitCode::from(2);
+        }
+    };
     match run(cli) {
         Ok(code) => code,
         Err(e) => {
@@ -399,6 +423,20 @@ fn main() -> ExitCode {
             ExitCode::from(1)
         }
     }
+}
+
+/// A usage error of the argument parser as one line: its message with the usage and the
+/// "try --help" lines left out and the rest joined.
+fn one_line_usage_error(text: &str) -> String {
+    let parts: Vec<&str> = text
+        .lines()
+        .map(str::trim)
+        .take_while(|l| !l.starts_with("Usage:"))
+        .filter(|l| !l.is_empty() && !l.starts_with("For more information"))
+        .collect();
+    let joined = parts.join(" ");
+    let msg = joined.strip_prefix("error: ").unwrap_or(&joined);
+    format!("{msg} (see --help)")
 }
 
 fn is_broken_pipe(e: &anyhow::Error) -> bool {
@@ -431,6 +469,7 @@ fn report_bad(e: &dyn std::fmt::Display) {
 }
 
 fn run(cli: Cli) -> Result<ExitCode> {
+    JOBS.store(cli.jobs, std::sync::atomic::Ordering::Relaxed);
     match cli.command {
         Command::Info { inputs, format } => {
             let paths = resolve_inputs(&inputs)?;

@@ -12,7 +12,7 @@ pub mod tracks;
 
 use serde::{Deserialize, Serialize};
 
-pub use batch::{run_batch, BatchOutcome};
+pub use batch::{run_batch, run_batch_parallel, BatchOutcome};
 pub use matching::{match_tracks, matches, TrackSpan};
 pub use settings::DetectSettings;
 pub use signals::{track_signals, TrackSignal};
