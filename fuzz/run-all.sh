@@ -24,6 +24,7 @@ for t in "${targets[@]}"; do
   rc=$?
   set -e
   end=$(date +%s)
+  rm -rf "${TMPDIR:-/tmp}"/rotorsift-fuzz-[0-9]*  # the sample target's scratch folders
   found=$(find "fuzz/artifacts/$t" -type f | wc -l)
   total=$((total + found))
   echo "fuzz $t: $((end - start)) s, exit $rc, $found finding(s) in fuzz/artifacts/$t"
