@@ -93,17 +93,21 @@ pub fn importance_table(imp: &[(String, f64)], top: usize) -> Table {
     t
 }
 
-/// Leave-one-radar-out scores, one line per radar: tracks, accuracy, rotorcraft recall,
-/// ECE (expected calibration error, 10 bins).
+/// Leave-one-radar-out scores, one line per held-out radar: tracks, accuracy, rotorcraft
+/// recall, ECE (expected calibration error, 10 bins).
 pub fn radar_table(cv: &RadarCrossValidation) -> Table {
-    let mut t = Table::new([
-        "held-out radar",
-        "tracks",
-        "accuracy",
-        "rotorcraft recall",
-        "ECE",
-    ]);
-    for (radar, s) in &cv.per_radar {
+    scores_by_radar("held-out radar", "tracks", &cv.per_radar)
+}
+
+/// One line per radar of `per_radar`: samples (named `count`), accuracy, rotorcraft
+/// recall, ECE.
+fn scores_by_radar(
+    first: &str,
+    count: &str,
+    per_radar: &std::collections::BTreeMap<String, Scores>,
+) -> Table {
+    let mut t = Table::new([first, count, "accuracy", "rotorcraft recall", "ECE"]);
+    for (radar, s) in per_radar {
         let n: usize = s.confusion.iter().flatten().sum();
         t.row([
             radar.clone(),
@@ -156,24 +160,7 @@ pub fn render_train(rep: &TrainReport, folds: usize, model: &std::path::Path) ->
 
 /// Per-radar target scores of `evaluate`: targets, accuracy, rotorcraft recall, ECE.
 pub fn per_radar_table(per_radar: &std::collections::BTreeMap<String, Scores>) -> Table {
-    let mut t = Table::new(["radar", "targets", "accuracy", "rotorcraft recall", "ECE"]);
-    for (radar, s) in per_radar {
-        let n: usize = s.confusion.iter().flatten().sum();
-        t.row([
-            radar.clone(),
-            n.to_string(),
-            format!("{:.3}", s.accuracy),
-            s.per_class
-                .get("rotorcraft")
-                .filter(|c| c.support > 0)
-                .map(|c| format!("{:.3}", c.recall))
-                .unwrap_or_else(|| "-".into()),
-            s.ece
-                .map(|e| format!("{e:.3}"))
-                .unwrap_or_else(|| "-".into()),
-        ]);
-    }
-    t
+    scores_by_radar("radar", "targets", per_radar)
 }
 
 /// The table report of `evaluate` (ECE: expected calibration error, 10 bins).
