@@ -14,6 +14,7 @@ pub mod pipeline;
 pub mod recording;
 pub mod report;
 pub mod simulate;
+pub mod stats;
 
 pub use atomic::{write_atomic, AtomicFile};
 pub use error::{Error, Result};

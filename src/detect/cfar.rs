@@ -14,6 +14,7 @@ use ndarray::ArrayView2;
 use serde::{Deserialize, Serialize};
 
 use crate::error::ensure;
+use crate::stats::{select_key, total_key};
 use crate::{Error, Result};
 
 /// Which noise estimator the CFAR uses.
@@ -307,8 +308,6 @@ struct CountEntry {
 #[derive(Debug, Clone)]
 pub struct CfarPlan {
     params: CfarParams,
-    /// (row offset, column offset) of every training cell of an interior CUT.
-    offsets: Vec<(isize, isize)>,
     /// Entry per training count, index = count; `None` until first needed.
     by_count: Vec<Option<CountEntry>>,
     /// Shape the per-row tables were built for.
@@ -317,35 +316,26 @@ pub struct CfarPlan {
     row_entry: Vec<CountEntry>,
     /// Summed-area table (f64) of the Doppler-wrapped map, (rows+1) × (ext cols+1).
     sat: Vec<f64>,
-    /// OS selection scratch.
-    scratch: Vec<f32>,
+    /// OS: the map with its Doppler axis wrapped onto both sides, rows × (cols + 2 hd).
+    wrapped: Vec<f32>,
+    /// OS selection scratch: order keys of the training cells (`stats::total_key`).
+    scratch: Vec<i32>,
 }
 
 impl CfarPlan {
-    /// Checks `params`, lists the training offsets and computes the multipliers for the
+    /// Checks `params` and computes the multipliers for the
     /// interior count and every range-edge count a map of ≥ 2(g_r+t_r)+1 rows can have.
     pub fn new(params: CfarParams) -> Result<Self> {
         params.check()?;
         let hr = (params.guard_range + params.train_range) as isize;
-        let hd = (params.guard_doppler + params.train_doppler) as isize;
-        let (gr, gd) = (params.guard_range as isize, params.guard_doppler as isize);
-        let mut offsets = Vec::with_capacity(params.full_count());
-        for dr in -hr..=hr {
-            for dc in -hd..=hd {
-                if dr.abs() <= gr && dc.abs() <= gd {
-                    continue;
-                }
-                offsets.push((dr, dc));
-            }
-        }
         let full = params.full_count();
         let mut plan = CfarPlan {
             params,
-            offsets,
             by_count: vec![None; full + 1],
             shape: (0, 0),
             row_entry: Vec::new(),
             sat: Vec::new(),
+            wrapped: Vec::new(),
             scratch: Vec::with_capacity(full),
         };
         // Edge counts of a tall map: rows r = 0..=hr at the top (the bottom is symmetric).
@@ -487,43 +477,47 @@ impl CfarPlan {
         let hd = p.guard_doppler + p.train_doppler;
         let gr = p.guard_range;
         let gd = p.guard_doppler;
-        // Extended column j ↔ Doppler bin (j − hd) mod cols.
+        // Extended column j <-> Doppler bin (j - hd) mod cols (cols >= 2 hd + 1, checked).
         let ext = cols + 2 * hd;
         let w = ext + 1;
         self.sat.clear();
         self.sat.resize((rows + 1) * w, 0.0);
-        for r in 0..rows {
+        let clean = |v: f32| if v.is_finite() { v as f64 } else { 0.0 };
+        for (r, row) in power.rows().into_iter().enumerate() {
+            let (above, here) = self.sat.split_at_mut((r + 1) * w);
+            let above = &above[r * w..];
+            let here = &mut here[..w];
             let mut run = 0.0f64;
-            for j in 0..ext {
-                let c = (j + cols - hd % cols) % cols;
-                let v = power[[r, c]];
-                run += if v.is_finite() { v as f64 } else { 0.0 };
-                self.sat[(r + 1) * w + j + 1] = self.sat[r * w + j + 1] + run;
+            let wrapped = (cols - hd..cols).chain(0..cols).chain(0..hd);
+            for (j, c) in wrapped.enumerate() {
+                run += clean(row[c]);
+                here[j + 1] = above[j + 1] + run;
             }
         }
         let sat = &self.sat;
         // Sum over rows a..=b, extended columns c0..=c1.
         let rect = |a: usize, b: usize, c0: usize, c1: usize| -> f64 {
-            sat[(b + 1) * w + c1 + 1] - sat[a * w + c1 + 1] - sat[(b + 1) * w + c0]
-                + sat[a * w + c0]
+            let (top, bot) = (&sat[a * w..(a + 1) * w], &sat[(b + 1) * w..(b + 2) * w]);
+            bot[c1 + 1] - top[c1 + 1] - bot[c0] + top[c0]
         };
-        for r in 0..rows {
+        for (r, row) in power.rows().into_iter().enumerate() {
             let e = self.row_entry[r];
             let (oa, ob) = (r.saturating_sub(hr), (r + hr).min(rows - 1));
             let (ia, ib) = (r.saturating_sub(gr), (r + gr).min(rows - 1));
-            for c in 0..cols {
-                if let Some(m) = &allowed {
-                    if !m[[r, c]] {
+            let mask = allowed.as_ref().map(|m| m.row(r));
+            let n = e.n as f64;
+            for (c, &cut) in row.iter().enumerate() {
+                if let Some(m) = &mask {
+                    if !m[c] {
                         continue;
                     }
                 }
-                let cut = power[[r, c]];
                 if !cut.is_finite() {
                     continue;
                 }
                 let outer = rect(oa, ob, c, c + 2 * hd);
                 let inner = rect(ia, ib, c + hd - gd, c + hd + gd);
-                let noise = (outer - inner) / e.n as f64;
+                let noise = (outer - inner) / n;
                 push_if_hit(hits, r, c, cut, noise, e.mult);
             }
         }
@@ -536,8 +530,36 @@ impl CfarPlan {
         hits: &mut Vec<CfarHit>,
     ) {
         let (rows, cols) = power.dim();
+        let p = self.params;
+        let (hr, hd) = (
+            p.guard_range + p.train_range,
+            p.guard_doppler + p.train_doppler,
+        );
+        let (gr, gd) = (p.guard_range, p.guard_doppler);
+        // The map with its Doppler axis wrapped hd bins onto each side: extended column
+        // j <-> bin (j - hd) mod cols, so every window is a contiguous run of a row.
+        let ext = cols + 2 * hd;
+        self.wrapped.clear();
+        for row in power.rows() {
+            let wrapped = (cols - hd..cols).chain(0..cols).chain(0..hd);
+            self.wrapped.extend(wrapped.map(|c| row[c]));
+        }
+        let wrapped = &self.wrapped;
+        // The training cells of CUT (r, c) on row rr, as up to two runs (their order does
+        // not matter to a rank): the whole window beyond the guard rows, the two flanks on
+        // them.
+        let runs = |r: usize, c: usize, rr: usize| -> [&[f32]; 2] {
+            let row = &wrapped[rr * ext..(rr + 1) * ext];
+            if rr.abs_diff(r) <= gr {
+                [&row[c..c + hd - gd], &row[c + hd + gd + 1..c + 2 * hd + 1]]
+            } else {
+                [&row[c..c + 2 * hd + 1], &[]]
+            }
+        };
+        let keys = &mut self.scratch;
         for r in 0..rows {
             let e = self.row_entry[r];
+            let (oa, ob) = (r.saturating_sub(hr), (r + hr).min(rows - 1));
             for c in 0..cols {
                 if let Some(m) = &allowed {
                     if !m[[r, c]] {
@@ -548,17 +570,30 @@ impl CfarPlan {
                 if !cut.is_finite() {
                     continue;
                 }
-                self.scratch.clear();
-                for &(dr, dc) in &self.offsets {
-                    let rr = r as isize + dr;
-                    if rr < 0 || rr >= rows as isize {
-                        continue;
+                // First only counted: the cell is a hit only if the k-th smallest x has
+                // (x to_noise) mult < cut, and then at least k cells are not above that
+                // (the product is monotone in x); most cells fail here, unsorted.
+                let cut64 = cut as f64;
+                let mut below = 0usize;
+                for rr in oa..=ob {
+                    for run in runs(r, c, rr) {
+                        below += run
+                            .iter()
+                            .map(|&x| usize::from(!(x as f64 * e.to_noise * e.mult >= cut64)))
+                            .sum::<usize>();
                     }
-                    let cc = (c as isize + dc).rem_euclid(cols as isize) as usize;
-                    self.scratch.push(power[[rr as usize, cc]]);
                 }
-                let (_, kth, _) = self.scratch.select_nth_unstable_by(e.k - 1, f32::total_cmp);
-                let noise = *kth as f64 * e.to_noise;
+                if below < e.k {
+                    continue;
+                }
+                keys.clear();
+                for rr in oa..=ob {
+                    for run in runs(r, c, rr) {
+                        keys.extend(run.iter().map(|&x| total_key(x)));
+                    }
+                }
+                let kth = select_key(keys, e.k - 1);
+                let noise = kth as f64 * e.to_noise;
                 push_if_hit(hits, r, c, cut, noise, e.mult);
             }
         }

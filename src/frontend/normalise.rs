@@ -6,6 +6,7 @@ use ndarray::Array2;
 
 use super::doppler::RangeDopplerMap;
 use crate::error::{ensure, Result};
+use crate::stats::{median_of_keys, total_key};
 
 /// Parameters of a [`NoiseFloor`].
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -56,21 +57,6 @@ impl NoiseFloorParams {
     }
 }
 
-/// Median of `v` (mean of the two middle values for even length); reorders `v`.
-fn median_in_place(v: &mut [f32]) -> f32 {
-    let n = v.len();
-    if n == 0 {
-        return 0.0;
-    }
-    let (_, &mut hi, _) = v.select_nth_unstable_by(n / 2, f32::total_cmp);
-    if n % 2 == 1 {
-        hi
-    } else {
-        let lo = v[..n / 2].iter().copied().fold(f32::NEG_INFINITY, f32::max);
-        0.5 * (lo + hi)
-    }
-}
-
 /// Smallest factor value kept, so a null Doppler bin (e.g. the canceller's notch at 0 Hz
 /// on pure noise) never divides by zero.
 const TINY: f32 = 1e-30;
@@ -91,9 +77,9 @@ pub struct NoiseFloor {
     n_range: Vec<f32>,
     n_doppler: Vec<f32>,
     updates: usize,
-    // scratch
-    column: Vec<f32>,
-    ratios: Vec<f32>,
+    // scratch: order keys (`stats::total_key`) of the values a median is taken of
+    column: Vec<i32>,
+    ratios: Vec<i32>,
     raw_range: Vec<f32>,
     new_range: Vec<f32>,
     new_doppler: Vec<f32>,
@@ -142,15 +128,18 @@ impl NoiseFloor {
             self.raw_range.resize(k, 1.0);
         }
         // n_doppler(d) = median over range
-        self.column.resize(k, 0.0);
-        for di in 0..d {
-            for ki in 0..k {
-                self.column[ki] = map.power[[ki, di]];
+        self.column.resize(k * d, 0);
+        // the map transposed into keys, Doppler column by column
+        for (ki, row) in map.power.rows().into_iter().enumerate() {
+            for (di, &p) in row.iter().enumerate() {
+                self.column[di * k + ki] = total_key(p);
             }
-            self.new_doppler[di] = median_in_place(&mut self.column).max(TINY);
+        }
+        for (di, col) in self.column.chunks_exact_mut(k).enumerate() {
+            self.new_doppler[di] = median_of_keys(col).max(TINY);
         }
         // raw n_range(k) = median over Doppler of power / n_doppler
-        self.ratios.resize(d, 0.0);
+        self.ratios.resize(d, 0);
         for (ki, row) in map.power.rows().into_iter().enumerate() {
             for ((r, &p), &nd) in self
                 .ratios
@@ -158,9 +147,9 @@ impl NoiseFloor {
                 .zip(row.iter())
                 .zip(&self.new_doppler)
             {
-                *r = p / nd;
+                *r = total_key(p / nd);
             }
-            self.raw_range[ki] = median_in_place(&mut self.ratios).max(TINY);
+            self.raw_range[ki] = median_of_keys(&mut self.ratios).max(TINY);
         }
         // median smoothing across range, window ±W truncated at the edges
         let w = self.params.half_window;
@@ -168,10 +157,10 @@ impl NoiseFloor {
             let lo = ki.saturating_sub(w);
             let hi = (ki + w + 1).min(k);
             self.column.clear();
-            self.column.extend_from_slice(&self.raw_range[lo..hi]);
-            self.new_range[ki] = median_in_place(&mut self.column).max(TINY);
+            self.column
+                .extend(self.raw_range[lo..hi].iter().map(|&v| total_key(v)));
+            self.new_range[ki] = median_of_keys(&mut self.column).max(TINY);
         }
-        self.column.resize(k, 0.0);
         if self.updates == 0 {
             self.n_range.copy_from_slice(&self.new_range);
             self.n_doppler.copy_from_slice(&self.new_doppler);
@@ -284,7 +273,7 @@ mod tests {
             assert!((mean - 1.0).abs() < 0.05, "decile {dec}: {mean}");
         }
         // and the median sits at ln 2 (mean 1 for an exponential law)
-        let m = median_in_place(&mut med);
+        let m = crate::stats::median_f32_in_place(&mut med);
         assert!((m - std::f32::consts::LN_2).abs() < 0.03, "median {m}");
         // the floor follows the 20 dB slope
         let ratio = floor.noise(cells - 20, 10).unwrap() / floor.noise(20, 10).unwrap();
@@ -323,6 +312,6 @@ mod tests {
         let map = crate::frontend::doppler::RangeDopplerMap::zeros(2, 2, 1.0);
         assert!(f.normalise_into(&map, &mut Array2::zeros((0, 0))).is_err());
         let mut v = vec![3.0, 1.0, 2.0, 4.0];
-        assert_eq!(median_in_place(&mut v), 2.5);
+        assert_eq!(crate::stats::median_f32_in_place(&mut v), 2.5);
     }
 }
