@@ -8,7 +8,6 @@ use ndarray::Array2;
 use rustfft::num_complex::Complex32;
 use rustfft::{Fft, FftPlanner};
 
-use super::shift::natural_of_shifted;
 use super::window::Window;
 use crate::error::{ensure, Result};
 
@@ -131,11 +130,17 @@ impl RangeDopplerPlan {
         if self.buf.len() != k * m {
             self.buf.resize(k * m, Complex32::new(0.0, 0.0));
         }
-        // Transpose to cell-major with the window applied.
-        for (mi, chirp) in block.chunks_exact(k).enumerate() {
-            let w = self.window[mi];
-            for (ki, &v) in chirp.iter().enumerate() {
-                self.buf[ki * m + mi] = v * w;
+        // Transpose to cell-major with the window applied, in tiles of `TILE` chirps so
+        // each cell's run of the tile is written as one contiguous piece.
+        const TILE: usize = 8;
+        for (t, tile) in block.chunks(k * TILE).enumerate() {
+            let m0 = t * TILE;
+            let n = tile.len() / k;
+            for ki in 0..k {
+                let dst = &mut self.buf[ki * m + m0..ki * m + m0 + n];
+                for (j, d) in dst.iter_mut().enumerate() {
+                    *d = tile[j * k + ki] * self.window[m0 + j];
+                }
             }
         }
         self.fft
@@ -144,10 +149,14 @@ impl RangeDopplerPlan {
             *map = RangeDopplerMap::zeros(k, m, prf_hz);
         }
         map.prf_hz = prf_hz;
+        // fftshift: shifted bin d holds natural bin (d + m - m/2) mod m, i.e. the upper
+        // half of the spectrum first, then the lower.
+        let lower = m - m / 2;
         for (ki, mut row) in map.power.rows_mut().into_iter().enumerate() {
             let src = &self.buf[ki * m..(ki + 1) * m];
-            for (d, p) in row.iter_mut().enumerate() {
-                *p = src[natural_of_shifted(d, m)].norm_sqr();
+            let (neg, pos) = (&src[lower..], &src[..lower]);
+            for (p, v) in row.iter_mut().zip(neg.iter().chain(pos)) {
+                *p = v.norm_sqr();
             }
         }
         Ok(())
@@ -163,6 +172,7 @@ impl RangeDopplerPlan {
 
 #[cfg(test)]
 mod tests {
+    use super::super::shift::natural_of_shifted;
     use super::*;
     use crate::frontend::range::RangePlan;
     use crate::frontend::testutil::{naive_dft, random_complex};
