@@ -122,6 +122,8 @@ impl Caption {
             parts.push(format!("range {r:.1} m"));
         }
         if let Some(v) = self.velocity_mps.filter(|v| v.is_finite()) {
+            // Under 0.05 m/s either way prints as 0.0 (never "-0.0").
+            let v = if v.abs() < 0.05 { 0.0 } else { v };
             parts.push(format!("radial velocity {v:+.1} m/s"));
         }
         parts.join(", ")
@@ -700,5 +702,11 @@ mod tests {
         c.label = None;
         assert!(c.line().starts_with("unlabelled, range"));
         assert_eq!(c.track_name(), "track 3");
+        c.velocity_mps = Some(-0.01);
+        assert!(
+            c.line().ends_with("radial velocity +0.0 m/s"),
+            "{}",
+            c.line()
+        );
     }
 }
