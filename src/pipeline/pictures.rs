@@ -143,31 +143,31 @@ pub struct Zoom {
 /// The velocity axis is fitted to the bins whose time-averaged power stands this many
 /// standard errors over the noise (the rule `md_extent_mps` uses, common practice for a
 /// detection on an averaged periodogram)...
-const SPREAD_SIGMAS: f32 = 5.0;
+pub const SPREAD_SIGMAS: f32 = 5.0;
 /// ... and within this many dB of the strongest bin (the Hann window's far sidelobes
 /// of a strong body line lie below it: -31 dB first sidelobe, 18 dB/octave, Harris 1978).
-const SPREAD_BELOW_PEAK_DB: f32 = 40.0;
+pub const SPREAD_BELOW_PEAK_DB: f32 = 40.0;
 /// The fitted half-width is the spread times this, plus [`SPREAD_MARGIN_BINS`] ...
-const SPREAD_MARGIN: f64 = 1.25;
-const SPREAD_MARGIN_BINS: f64 = 1.0;
+pub const SPREAD_MARGIN: f64 = 1.25;
+pub const SPREAD_MARGIN_BINS: f64 = 1.0;
 /// ... and at least this, m/s (a bird's wing motion, a few m/s, still fills the axis).
-const MIN_VELOCITY_HALF_SPAN_MPS: f64 = 2.0;
+pub const MIN_VELOCITY_HALF_SPAN_MPS: f64 = 2.0;
 /// The cadence axis reaches past the highest cadence line: a cadence whose summed power
 /// stands this many dB over the summed spectrum's median ...
-const CADENCE_LINE_DB: f32 = 10.0;
+pub const CADENCE_LINE_DB: f32 = 10.0;
 /// ... and within this many dB of the strongest cadence (the spectrum of a spectrogram's
 /// magnitude slopes down from its wingbeat or flash lines to a speckle floor, which then
 /// sets the median: on our demo bird many 50-190 Hz bins stand 10-12 dB over it, 17 dB
 /// under its 3.7 Hz wingbeat) ...
-const CADENCE_LINE_BELOW_PEAK_DB: f32 = 15.0;
+pub const CADENCE_LINE_BELOW_PEAK_DB: f32 = 15.0;
 /// ... not counting the first bins, the main lobe of the zero-cadence term (the mean
 /// level; a Hann window's main lobe is 2 bins either side, Harris 1978) ...
-const CADENCE_DC_BINS: usize = 2;
+pub const CADENCE_DC_BINS: usize = 2;
 /// ... by this factor (room for its next harmonic's neighbourhood) ...
-const CADENCE_MARGIN: f64 = 1.5;
+pub const CADENCE_MARGIN: f64 = 1.5;
 /// ... and at least to this, Hz: past the wingbeat band's top of 30 Hz (the
 /// `cadence_low_hz` band) with its second harmonic's neighbourhood.
-const MIN_CADENCE_MAX_HZ: f64 = 40.0;
+pub const MIN_CADENCE_MAX_HZ: f64 = 40.0;
 
 /// The velocity window of a track picture: (low, high), m/s. `mean` is the spectrogram's
 /// time-averaged power over the noise in each velocity bin (`v_first` the first bin's
@@ -187,7 +187,7 @@ pub fn velocity_view(
     span: Option<f64>,
 ) -> (f64, f64) {
     let full = (-vmax, vmax);
-    if mean.is_empty() || !(bin_mps > 0.0) {
+    if mean.is_empty() || bin_mps.is_nan() || bin_mps <= 0.0 {
         return full;
     }
     let peak = (0..mean.len())
