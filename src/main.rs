@@ -178,9 +178,17 @@ enum Command {
         /// the CPI at the track's middle (default: the recording's middle).
         #[arg(long)]
         track: Option<usize>,
-        /// PNG file to write.
-        #[arg(long)]
+        /// PNG file to write (must end in .png).
+        #[arg(long, value_parser = parse_png_path)]
         out: PathBuf,
+        /// Velocity axis of the spectrogram and cadence diagram: the track's body velocity
+        /// plus and minus this, m/s (default: fitted to the track's micro-Doppler spread).
+        #[arg(long, value_name = "M/S", value_parser = parse_velocity_span)]
+        velocity_span: Option<f64>,
+        /// Top of the cadence diagram's cadence axis, Hz (default: fitted to the
+        /// track's strongest cadence lines).
+        #[arg(long, value_name = "HZ", value_parser = parse_cadence_max)]
+        cadence_max: Option<f64>,
         #[command(flatten)]
         process: ProcessArgs,
     },
@@ -263,6 +271,35 @@ fn parse_pfa(s: &str) -> std::result::Result<f64, String> {
         Ok(v) if v > 0.0 && v < 0.5 => Ok(v),
         _ => Err(format!(
             "{s}: expected a false-alarm probability between 0 and 0.5 (both excluded)"
+        )),
+    }
+}
+
+/// A picture path: only .png is written (a usage error otherwise, before any work).
+fn parse_png_path(s: &str) -> std::result::Result<PathBuf, String> {
+    let p = PathBuf::from(s);
+    report::plot::check_picture_path(&p)?;
+    Ok(p)
+}
+
+/// A velocity half-span, m/s: above 0, at most 10 000 (well past any radar's
+/// unambiguous speed; wider than the axis shows the whole axis).
+fn parse_velocity_span(s: &str) -> std::result::Result<f64, String> {
+    match s.parse::<f64>() {
+        Ok(v) if v > 0.0 && v <= 1e4 => Ok(v),
+        _ => Err(format!(
+            "{s}: expected a speed in m/s above 0 and at most 10000"
+        )),
+    }
+}
+
+/// A cadence axis top, Hz: above 0, at most 1 MHz (past any chirp rate's frame rate;
+/// above the axis' end shows the whole axis).
+fn parse_cadence_max(s: &str) -> std::result::Result<f64, String> {
+    match s.parse::<f64>() {
+        Ok(v) if v > 0.0 && v <= 1e6 => Ok(v),
+        _ => Err(format!(
+            "{s}: expected a cadence in Hz above 0 and at most 1000000"
         )),
     }
 }
@@ -676,9 +713,11 @@ fn run(cli: Cli) -> Result<ExitCode> {
             kind,
             track,
             out,
+            velocity_span,
+            cadence_max,
             process,
         } => {
-            use pipeline::pictures::{self as pic, PictureKind};
+            use pipeline::pictures::{self as pic, Caption, PictureKind, Zoom};
             let paths = resolve_inputs(std::slice::from_ref(&input))?;
             if paths.len() != 1 {
                 anyhow::bail!(
@@ -690,7 +729,10 @@ fn run(cli: Cli) -> Result<ExitCode> {
             let meta = RecordingMeta::open(&paths[0])?;
             let settings = process.settings();
             settings.detect.check()?;
-            let a = pipeline::analyse(&meta, process.channel, &settings, false)?;
+            // The built-in model labels the track when its settings are the plot's.
+            let clf = pipeline::classify::Classifier::load(None)?;
+            let labelled = clf.settings == settings;
+            let a = pipeline::analyse(&meta, process.channel, &settings, labelled)?;
             let chosen = match track {
                 Some(id) => Some(a.tracks.iter().find(|t| t.track.id == id).ok_or_else(|| {
                     anyhow::anyhow!(
@@ -704,11 +746,22 @@ fn run(cli: Cli) -> Result<ExitCode> {
                     .iter()
                     .max_by(|x, y| x.track.mean_snr_db().total_cmp(&y.track.mean_snr_db())),
             };
+            let caption = chosen.map(|t| {
+                let p = labelled
+                    .then(|| clf.predict(&t.features, 0.0).ok())
+                    .flatten();
+                Caption::of_track(t, p.as_ref().map(|p| (p.label.as_str(), p.confidence)))
+            });
             let h = if kind == PictureKind::RangeDoppler {
                 let centre = chosen
                     .map(|t| 0.5 * (t.start_s + t.end_s))
                     .unwrap_or(0.5 * meta.duration_s());
-                pic::range_doppler(&meta, process.channel, &settings, centre)?
+                let tracks: Vec<_> = a.tracks.iter().map(|t| t.track.clone()).collect();
+                let focus = chosen.zip(caption.as_ref()).map(|(t, c)| pic::Focus {
+                    track: &t.track,
+                    caption: c,
+                });
+                pic::range_doppler(&meta, process.channel, &settings, centre, &tracks, focus)?
             } else {
                 let t = chosen.ok_or_else(|| {
                     anyhow::anyhow!(
@@ -728,11 +781,24 @@ fn run(cli: Cli) -> Result<ExitCode> {
                     &pic::extractor_for(&meta, &settings)?,
                     &sigs[0],
                     kind,
-                    &format!("TRACK {}", t.track.id),
+                    caption.as_ref().unwrap_or(&Caption::default()),
+                    Zoom {
+                        velocity_span_mps: velocity_span,
+                        cadence_max_hz: cadence_max,
+                    },
                 )?
             };
             report::plot::write_png(&h, &out)?;
-            eprintln!("rotorsift: {} written to {}", kind.name(), out.display());
+            let note = if chosen.is_some() && !labelled {
+                " (track unlabelled: the detection options differ from the built-in model's)"
+            } else {
+                ""
+            };
+            eprintln!(
+                "rotorsift: {} written to {}{note}",
+                kind.name(),
+                out.display()
+            );
             Ok(ExitCode::SUCCESS)
         }
         Command::Detect {

@@ -70,7 +70,16 @@ fn help_names_subcommands_and_their_key_options() {
         ("classify", &["--model", "--min-confidence", "--format"]),
         ("evaluate", &["--model", "--min-confidence", "--format"]),
         ("audit", &["--model", "--out", "--low-confidence"]),
-        ("plot", &["--kind", "--track", "--out"]),
+        (
+            "plot",
+            &[
+                "--kind",
+                "--track",
+                "--out",
+                "--velocity-span",
+                "--cadence-max",
+            ],
+        ),
     ];
     for (sub, opts) in key_options {
         let o = run(&[sub, "--help"]);
@@ -1328,6 +1337,15 @@ fn png_size(path: &Path) -> (u32, u32) {
     (be(16), be(20))
 }
 
+/// The RGB pixels of an 8-bit RGB PNG (what `plot` writes).
+fn png_pixels(path: &std::path::Path) -> Vec<u8> {
+    let dec = png::Decoder::new(std::io::BufReader::new(std::fs::File::open(path).unwrap()));
+    let mut r = dec.read_info().unwrap();
+    let mut img = vec![0; r.output_buffer_size()];
+    r.next_frame(&mut img).unwrap();
+    img
+}
+
 /// `plot` draws each kind as a PNG; an unknown track id and a missing recording are one
 /// error line each, and a failed plot leaves an existing file untouched.
 #[test]
@@ -1342,6 +1360,64 @@ fn plot_writes_each_kind_and_refuses_bad_requests() {
         assert_no_panic(&o);
         assert!(o.status.success(), "plot {kind}: {}", stderr(&o));
         assert_eq!(png_size(&out), (960, 600), "{kind}");
+    }
+    // Text is drawn: the title band (y 8..34 of docs/output-format.md's layout) holds
+    // dark ink on the white margin, mixed-case DejaVu Sans, not a uniform strip.
+    let img = png_pixels(&dir.join("spectrogram.png"));
+    let dark = (8..34)
+        .flat_map(|y| (92..700).map(move |x| (x, y)))
+        .filter(|&(x, y)| {
+            let i = (y * 960 + x) * 3;
+            (img[i] as u32 + img[i + 1] as u32 + img[i + 2] as u32) < 300
+        })
+        .count();
+    assert!(dark > 200, "title band has {dark} dark pixels");
+    // Axis overrides draw; out-of-range values and other formats are usage errors
+    // (exit 2) before any work: the recording is not even looked for.
+    let zoomed = dir.join("zoomed.png");
+    let o = run(&[
+        "plot",
+        m,
+        "--kind",
+        "cadence",
+        "--velocity-span",
+        "3",
+        "--cadence-max",
+        "50",
+        "--out",
+        zoomed.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "zoomed cadence: {}", stderr(&o));
+    assert_ne!(
+        std::fs::read(&zoomed).unwrap(),
+        std::fs::read(dir.join("cadence.png")).unwrap(),
+        "the overrides changed nothing"
+    );
+    for (opt, v, needle) in [
+        ("--velocity-span", "0", "m/s"),
+        ("--velocity-span", "-2", "m/s"),
+        ("--velocity-span", "fast", "m/s"),
+        ("--cadence-max", "0", "Hz"),
+        ("--cadence-max", "inf", "Hz"),
+    ] {
+        let arg = format!("{opt}={v}");
+        let o = run(&[
+            "plot", "/no/such", "--kind", "cadence", &arg, "--out", "x.png",
+        ]);
+        assert_one_error(&o, 2, &[opt, needle]);
+    }
+    for bad in ["pic.jpg", "pic.svg", "pic"] {
+        let out = dir.join(bad);
+        let o = run(&[
+            "plot",
+            "/no/such",
+            "--kind",
+            "spectrogram",
+            "--out",
+            out.to_str().unwrap(),
+        ]);
+        assert_one_error(&o, 2, &[bad, ".png"]);
+        assert!(!out.exists(), "{bad} written");
     }
     let keep = dir.join("spectrogram.png");
     let before = std::fs::read(&keep).unwrap();

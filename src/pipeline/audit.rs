@@ -8,7 +8,8 @@ use std::path::Path;
 
 use super::classify::{Classifier, Prediction};
 use super::pictures::{
-    extractor_for, name_of, range_doppler, signals_of, track_picture, PictureKind,
+    extractor_for, name_of, range_doppler, signals_of, track_picture, Caption, Focus, PictureKind,
+    Zoom,
 };
 use super::{match_tracks, RecordingAnalysis};
 use crate::error::Result;
@@ -223,18 +224,27 @@ pub fn audit(
         let sigs = signals_of(&a.meta, channel, &clf.settings, &tracks)?;
         let name = stem(&a.meta);
         let ex = extractor_for(&a.meta, &clf.settings)?;
-        for (&k, sig) in ks.iter().zip(&sigs) {
+        let all: Vec<_> = a.tracks.iter().map(|t| t.track.clone()).collect();
+        for ((&k, sig), track) in ks.iter().zip(&sigs).zip(&tracks) {
+            let at = &a.tracks[picked[k].1];
             let entry = &mut picked[k].2;
-            let label = format!("TRACK {}", entry.track_id);
+            let caption = Caption::of_track(
+                at,
+                Some((&entry.prediction.label, entry.prediction.confidence)),
+            );
             for kind in [PictureKind::Spectrogram, PictureKind::Cadence] {
-                if let Ok(h) = track_picture(&a.meta, &ex, sig, kind, &label) {
+                if let Ok(h) = track_picture(&a.meta, &ex, sig, kind, &caption, Zoom::default()) {
                     let file = format!("img/{name}-t{}-{}.png", entry.track_id, kind.name());
                     write_png(&h, &dir.join(&file))?;
                     entry.pictures.push((kind, file));
                 }
             }
             let mid = 0.5 * (entry.start_s + entry.end_s);
-            if let Ok(h) = range_doppler(&a.meta, channel, &clf.settings, mid) {
+            let focus = Some(Focus {
+                track,
+                caption: &caption,
+            });
+            if let Ok(h) = range_doppler(&a.meta, channel, &clf.settings, mid, &all, focus) {
                 let file = format!("img/{name}-t{}-range-doppler.png", entry.track_id);
                 write_png(&h, &dir.join(&file))?;
                 entry.pictures.push((PictureKind::RangeDoppler, file));

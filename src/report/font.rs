@@ -1,95 +1,146 @@
-//! A small 5 x 7 pixel font for the pictures' labels, drawn pixel by pixel, so pictures need
-//! no font files on the machine. Lower-case letters are drawn as capitals; characters
-//! without a glyph are drawn as a blank.
+//! Text for the pictures: DejaVu Sans (assets/fonts/DejaVuSans.ttf, Bitstream Vera
+//! licence, assets/fonts/LICENSE.txt), embedded in the binary and rasterised with
+//! `ab_glyph` into anti-aliased coverage, horizontal or turned 90° (reading upwards).
 
-/// Glyph width and height in font pixels; characters advance by `ADVANCE`.
-pub const WIDTH: usize = 5;
-pub const HEIGHT: usize = 7;
-pub const ADVANCE: usize = 6;
+use std::sync::OnceLock;
 
-/// Rows of a glyph, top first; bit 4 is the leftmost column.
-fn glyph(c: char) -> [u8; 7] {
-    match c.to_ascii_uppercase() {
-        '0' => [0x0E, 0x11, 0x13, 0x15, 0x19, 0x11, 0x0E],
-        '1' => [0x04, 0x0C, 0x04, 0x04, 0x04, 0x04, 0x0E],
-        '2' => [0x0E, 0x11, 0x01, 0x02, 0x04, 0x08, 0x1F],
-        '3' => [0x1F, 0x02, 0x04, 0x02, 0x01, 0x11, 0x0E],
-        '4' => [0x02, 0x06, 0x0A, 0x12, 0x1F, 0x02, 0x02],
-        '5' => [0x1F, 0x10, 0x1E, 0x01, 0x01, 0x11, 0x0E],
-        '6' => [0x06, 0x08, 0x10, 0x1E, 0x11, 0x11, 0x0E],
-        '7' => [0x1F, 0x01, 0x02, 0x04, 0x08, 0x08, 0x08],
-        '8' => [0x0E, 0x11, 0x11, 0x0E, 0x11, 0x11, 0x0E],
-        '9' => [0x0E, 0x11, 0x11, 0x0F, 0x01, 0x02, 0x0C],
-        'A' => [0x0E, 0x11, 0x11, 0x1F, 0x11, 0x11, 0x11],
-        'B' => [0x1E, 0x11, 0x11, 0x1E, 0x11, 0x11, 0x1E],
-        'C' => [0x0E, 0x11, 0x10, 0x10, 0x10, 0x11, 0x0E],
-        'D' => [0x1C, 0x12, 0x11, 0x11, 0x11, 0x12, 0x1C],
-        'E' => [0x1F, 0x10, 0x10, 0x1E, 0x10, 0x10, 0x1F],
-        'F' => [0x1F, 0x10, 0x10, 0x1E, 0x10, 0x10, 0x10],
-        'G' => [0x0E, 0x11, 0x10, 0x17, 0x11, 0x11, 0x0F],
-        'H' => [0x11, 0x11, 0x11, 0x1F, 0x11, 0x11, 0x11],
-        'I' => [0x0E, 0x04, 0x04, 0x04, 0x04, 0x04, 0x0E],
-        'J' => [0x07, 0x02, 0x02, 0x02, 0x02, 0x12, 0x0C],
-        'K' => [0x11, 0x12, 0x14, 0x18, 0x14, 0x12, 0x11],
-        'L' => [0x10, 0x10, 0x10, 0x10, 0x10, 0x10, 0x1F],
-        'M' => [0x11, 0x1B, 0x15, 0x15, 0x11, 0x11, 0x11],
-        'N' => [0x11, 0x11, 0x19, 0x15, 0x13, 0x11, 0x11],
-        'O' => [0x0E, 0x11, 0x11, 0x11, 0x11, 0x11, 0x0E],
-        'P' => [0x1E, 0x11, 0x11, 0x1E, 0x10, 0x10, 0x10],
-        'Q' => [0x0E, 0x11, 0x11, 0x11, 0x15, 0x12, 0x0D],
-        'R' => [0x1E, 0x11, 0x11, 0x1E, 0x14, 0x12, 0x11],
-        'S' => [0x0F, 0x10, 0x10, 0x0E, 0x01, 0x01, 0x1E],
-        'T' => [0x1F, 0x04, 0x04, 0x04, 0x04, 0x04, 0x04],
-        'U' => [0x11, 0x11, 0x11, 0x11, 0x11, 0x11, 0x0E],
-        'V' => [0x11, 0x11, 0x11, 0x11, 0x11, 0x0A, 0x04],
-        'W' => [0x11, 0x11, 0x11, 0x15, 0x15, 0x15, 0x0A],
-        'X' => [0x11, 0x11, 0x0A, 0x04, 0x0A, 0x11, 0x11],
-        'Y' => [0x11, 0x11, 0x11, 0x0A, 0x04, 0x04, 0x04],
-        'Z' => [0x1F, 0x01, 0x02, 0x04, 0x08, 0x10, 0x1F],
-        '.' => [0x00, 0x00, 0x00, 0x00, 0x00, 0x0C, 0x0C],
-        ',' => [0x00, 0x00, 0x00, 0x00, 0x0C, 0x04, 0x08],
-        ':' => [0x00, 0x0C, 0x0C, 0x00, 0x0C, 0x0C, 0x00],
-        '-' => [0x00, 0x00, 0x00, 0x1F, 0x00, 0x00, 0x00],
-        '+' => [0x00, 0x04, 0x04, 0x1F, 0x04, 0x04, 0x00],
-        '=' => [0x00, 0x00, 0x1F, 0x00, 0x1F, 0x00, 0x00],
-        '/' => [0x00, 0x01, 0x02, 0x04, 0x08, 0x10, 0x00],
-        '(' => [0x02, 0x04, 0x04, 0x04, 0x04, 0x04, 0x02],
-        ')' => [0x08, 0x04, 0x04, 0x04, 0x04, 0x04, 0x08],
-        '%' => [0x18, 0x19, 0x02, 0x04, 0x08, 0x13, 0x03],
-        '_' => [0x00, 0x00, 0x00, 0x00, 0x00, 0x00, 0x1F],
-        '#' => [0x0A, 0x0A, 0x1F, 0x0A, 0x1F, 0x0A, 0x0A],
-        _ => [0; 7],
-    }
+use ab_glyph::{Font, FontRef, PxScale, ScaleFont};
+
+/// The font file, embedded at build time.
+const FONT_BYTES: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans.ttf");
+
+fn font() -> Option<&'static FontRef<'static>> {
+    static FONT: OnceLock<Option<FontRef<'static>>> = OnceLock::new();
+    FONT.get_or_init(|| FontRef::try_from_slice(FONT_BYTES).ok())
+        .as_ref()
 }
 
-/// Calls `put(x, y)` for every lit pixel of `text` drawn at (`x0`, `y0`) (top left) with
-/// each font pixel `scale` x `scale` picture pixels.
-pub fn draw_text(text: &str, x0: i32, y0: i32, scale: i32, put: &mut dyn FnMut(i32, i32)) {
-    for (i, c) in text.chars().enumerate() {
-        let g = glyph(c);
-        let cx = x0 + (i * ADVANCE) as i32 * scale;
-        for (row, bits) in g.iter().enumerate() {
-            for col in 0..WIDTH {
-                if bits & (0x10 >> col) != 0 {
-                    for dy in 0..scale {
-                        for dx in 0..scale {
-                            put(cx + col as i32 * scale + dx, y0 + row as i32 * scale + dy);
-                        }
-                    }
-                }
-            }
+/// Where a text stands relative to its anchor point, along the text.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Align {
+    /// The anchor is the text's start.
+    Start,
+    /// The anchor is the text's middle.
+    Centre,
+    /// The anchor is the text's end.
+    End,
+}
+
+/// Where a text stands relative to its anchor point, across the text.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Across {
+    /// The anchor is at the top of the capitals (the ascender line).
+    Top,
+    /// The anchor is halfway between ascender and descender lines.
+    Middle,
+    /// The anchor is at the bottom of the descenders.
+    Bottom,
+}
+
+/// One text to draw: its size in pixels (the em height), alignment, and whether it is
+/// turned 90° anticlockwise (reading from bottom to top, as a y-axis label).
+#[derive(Debug, Clone, Copy)]
+pub struct Style {
+    pub size_px: f32,
+    pub align: Align,
+    pub across: Across,
+    pub upright: bool,
+}
+
+impl Style {
+    /// Horizontal text of `size_px`, anchored at its top left.
+    pub fn new(size_px: f32) -> Self {
+        Style {
+            size_px,
+            align: Align::Start,
+            across: Across::Top,
+            upright: false,
         }
     }
+    pub fn align(mut self, a: Align) -> Self {
+        self.align = a;
+        self
+    }
+    pub fn across(mut self, a: Across) -> Self {
+        self.across = a;
+        self
+    }
+    /// Turned 90° anticlockwise.
+    pub fn upright(mut self) -> Self {
+        self.upright = true;
+        self
+    }
 }
 
-/// Width in picture pixels of `text` at `scale`.
-pub fn text_width(text: &str, scale: i32) -> i32 {
-    let n = text.chars().count();
-    if n == 0 {
-        0
-    } else {
-        ((n - 1) * ADVANCE + WIDTH) as i32 * scale
+/// Advance width of `s` at `size_px`, pixels (0 when the font cannot be read).
+pub fn text_width(s: &str, size_px: f32) -> f32 {
+    let Some(f) = font() else { return 0.0 };
+    let sf = f.as_scaled(PxScale::from(size_px));
+    let mut w = 0.0;
+    let mut prev = None;
+    for c in s.chars() {
+        let id = sf.glyph_id(c);
+        if let Some(p) = prev {
+            w += sf.kern(p, id);
+        }
+        w += sf.h_advance(id);
+        prev = Some(id);
     }
+    w
+}
+
+/// Draws `s` anchored at pixel (`x`, `y`); `put(px, py, coverage)` receives every pixel
+/// the glyphs cover, coverage in 0..1. Returns false when the embedded font cannot be
+/// read (nothing drawn).
+pub fn draw_text(
+    s: &str,
+    x: i32,
+    y: i32,
+    style: Style,
+    put: &mut dyn FnMut(i32, i32, f32),
+) -> bool {
+    let Some(f) = font() else { return false };
+    let scale = PxScale::from(style.size_px);
+    let sf = f.as_scaled(scale);
+    let width = text_width(s, style.size_px);
+    // Layout coordinates: u along the text from its start, v down from the baseline.
+    let u0 = match style.align {
+        Align::Start => 0.0,
+        Align::Centre => -0.5 * width,
+        Align::End => -width,
+    };
+    let (asc, desc) = (sf.ascent(), sf.descent());
+    let v0 = match style.across {
+        Across::Top => asc,
+        Across::Middle => 0.5 * (asc + desc),
+        Across::Bottom => desc,
+    };
+    let mut pen = u0;
+    let mut prev = None;
+    for c in s.chars() {
+        let id = sf.glyph_id(c);
+        if let Some(p) = prev {
+            pen += sf.kern(p, id);
+        }
+        prev = Some(id);
+        let g = id.with_scale_and_position(scale, ab_glyph::point(pen, v0));
+        pen += sf.h_advance(id);
+        let Some(og) = f.outline_glyph(g) else {
+            continue;
+        };
+        let b = og.px_bounds();
+        og.draw(|gx, gy, cov| {
+            let u = b.min.x as i32 + gx as i32;
+            let v = b.min.y as i32 + gy as i32;
+            let (px, py) = if style.upright {
+                (x + v, y - u)
+            } else {
+                (x + u, y + v)
+            };
+            put(px, py, cov);
+        });
+    }
+    true
 }
 
 #[cfg(test)]
@@ -97,22 +148,47 @@ mod tests {
     use super::*;
 
     #[test]
-    fn every_printable_glyph_is_distinct_and_fits() {
-        let chars: Vec<char> = "0123456789ABCDEFGHIJKLMNOPQRSTUVWXYZ.,:-+=/()%_#"
-            .chars()
-            .collect();
-        for (i, &a) in chars.iter().enumerate() {
-            let ga = glyph(a);
-            assert!(ga.iter().any(|&r| r != 0), "{a} blank");
-            assert!(ga.iter().all(|&r| r < 0x20), "{a} wider than 5");
-            for &b in &chars[i + 1..] {
-                assert_ne!(ga, glyph(b), "{a} and {b} look alike");
+    fn the_embedded_font_draws_mixed_case() {
+        let mut lit = Vec::new();
+        assert!(draw_text(
+            "Ag (m/s)",
+            10,
+            10,
+            Style::new(16.0),
+            &mut |x, y, c| {
+                if c > 0.5 {
+                    lit.push((x, y))
+                }
             }
-        }
-        assert_eq!(glyph('a'), glyph('A'));
-        let mut n = 0;
-        draw_text("1", 0, 0, 2, &mut |_, _| n += 1);
-        assert_eq!(n, 4 * 10); // 10 lit pixels in the glyph of 1, 2 x 2 each
-        assert_eq!(text_width("ab", 1), 11);
+        ));
+        assert!(lit.len() > 50, "{} pixels", lit.len());
+        // Top-anchored: nothing above the anchor, the descender of g below the capitals.
+        assert!(lit.iter().all(|&(_, y)| y >= 10));
+        let w = text_width("Ag (m/s)", 16.0);
+        assert!(lit
+            .iter()
+            .all(|&(x, _)| x >= 10 && x <= 10 + w.ceil() as i32));
+        // Lower case is narrower than upper case in a proportional font.
+        assert!(text_width("ms", 16.0) < text_width("MS", 16.0));
+    }
+
+    #[test]
+    fn upright_text_runs_upwards() {
+        let mut ys = Vec::new();
+        let style = Style::new(16.0).align(Align::Start).upright();
+        draw_text("range (m)", 50, 200, style, &mut |x, y, c| {
+            if c > 0.5 {
+                ys.push((x, y))
+            }
+        });
+        let w = text_width("range (m)", 16.0);
+        // Starts at the anchor and climbs by the text's width; only ~one line wide.
+        assert!(ys
+            .iter()
+            .all(|&(_, y)| y <= 200 && y >= 200 - w.ceil() as i32 - 1));
+        let (xmin, xmax) = ys
+            .iter()
+            .fold((i32::MAX, i32::MIN), |(a, b), &(x, _)| (a.min(x), b.max(x)));
+        assert!(xmax - xmin <= 20, "{xmin}..{xmax}");
     }
 }
