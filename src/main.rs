@@ -166,6 +166,22 @@ enum Command {
         #[arg(long)]
         track: Option<String>,
     },
+    /// Make a rotorsift recording from a plain SigMF recording or a raw IQ file, with the
+    /// radar's settings from a TOML file (labelled-demo/radars/ has one per demo radar).
+    Adopt {
+        /// A SigMF recording (NAME.sigmf-meta, NAME.sigmf-data or NAME) or a raw IQ file.
+        input: PathBuf,
+        /// The radar file: the rotorsift keys without their prefix (and, for a raw IQ
+        /// file, datatype, sample_rate_hz, carrier_hz, num_channels).
+        #[arg(long)]
+        radar: PathBuf,
+        /// Directory for NAME.sigmf-meta and NAME.sigmf-data (created if missing).
+        #[arg(long)]
+        out: PathBuf,
+        /// Base name of the new recording (default: the input's).
+        #[arg(long)]
+        name: Option<String>,
+    },
     /// Draw one picture as PNG: a CPI's range-Doppler map, or a track's spectrogram,
     /// cepstrogram or cadence-velocity diagram.
     Plot {
@@ -489,6 +505,22 @@ fn run(cli: Cli) -> Result<ExitCode> {
             };
             emit(&text)?;
             Ok(exit_code(failed))
+        }
+        Command::Adopt {
+            input,
+            radar,
+            out,
+            name,
+        } => {
+            let a = rotorsift::recording::adopt::adopt(&input, &radar, &out, name.as_deref())?;
+            eprintln!(
+                "rotorsift: {} chirps {} {}",
+                a.meta.chirps,
+                if a.linked { "linked as" } else { "copied to" },
+                a.data_path.display()
+            );
+            emit(&format!("{}\n", a.meta_path.display()))?;
+            Ok(ExitCode::SUCCESS)
         }
         Command::Simulate { scene, out, seed } => {
             std::fs::create_dir_all(&out).with_context(|| format!("creating {}", out.display()))?;
