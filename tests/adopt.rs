@@ -248,7 +248,10 @@ fn conflicts_bad_sizes_and_bad_radar_files_are_refused_writing_nothing() {
         &conflict,
         std::fs::read_to_string(k24_radar_file(dir, ""))
             .unwrap()
-            .replace(&format!("sample_rate_hz = {K24_FS:e}"), "sample_rate_hz = 4e6"),
+            .replace(
+                &format!("sample_rate_hz = {K24_FS:e}"),
+                "sample_rate_hz = 4e6",
+            ),
     )
     .unwrap();
     let o = run(&[
@@ -279,11 +282,20 @@ fn conflicts_bad_sizes_and_bad_radar_files_are_refused_writing_nothing() {
     assert_one_error(
         &o,
         1,
-        &["odd.iq", &bytes.len().to_string(), "whole number of chirps", &per_chirp],
+        &[
+            "odd.iq",
+            &bytes.len().to_string(),
+            "whole number of chirps",
+            &per_chirp,
+        ],
     );
     no_outputs(&out);
 
-    let unknown = write(dir, "unknown.toml", "waveform = \"fmcw-beat\"\nchirp_rate = 3\n");
+    let unknown = write(
+        dir,
+        "unknown.toml",
+        "waveform = \"fmcw-beat\"\nchirp_rate = 3\n",
+    );
     let o = run(&[
         "adopt",
         plain.to_str().unwrap(),

@@ -106,7 +106,11 @@ fn classify_input(input: &Path) -> Result<Input> {
         .file_name()
         .map(|s| s.to_string_lossy().into_owned())
         .unwrap_or_default();
-    let base_name = |suffix: &str| strip_suffix(&file_name, suffix).unwrap_or(&file_name).to_string();
+    let base_name = |suffix: &str| {
+        strip_suffix(&file_name, suffix)
+            .unwrap_or(&file_name)
+            .to_string()
+    };
     if text.ends_with(".sigmf-meta") {
         if !input.is_file() {
             return Err(Error::format(input, "no such metadata file"));
@@ -164,18 +168,19 @@ fn read_radar(radar: &Path) -> Result<Vec<(&'static str, &'static str, Place, Va
     })?;
     let mut out = Vec::new();
     for (key, v) in &table {
-        let &(name, sigmf, place) = RADAR_KEYS
-            .iter()
-            .find(|(k, _, _)| k == key)
-            .ok_or_else(|| {
-                Error::format(
-                    radar,
-                    format!(
-                        "unknown key `{key}`; expected one of {}",
-                        RADAR_KEYS.map(|k| k.0).join(", ")
-                    ),
-                )
-            })?;
+        let &(name, sigmf, place) =
+            RADAR_KEYS
+                .iter()
+                .find(|(k, _, _)| k == key)
+                .ok_or_else(|| {
+                    Error::format(
+                        radar,
+                        format!(
+                            "unknown key `{key}`; expected one of {}",
+                            RADAR_KEYS.map(|k| k.0).join(", ")
+                        ),
+                    )
+                })?;
         let value = match v {
             toml::Value::String(s) => json!(s),
             toml::Value::Integer(i) => json!(i),
@@ -227,11 +232,8 @@ pub fn adopt(input: &Path, radar: &Path, out_dir: &Path, name: Option<&str>) -> 
     let keys = read_radar(radar)?;
     let mut root = match &inp.meta {
         Some(m) => {
-            let text = crate::limits::read_text_capped(
-                m,
-                crate::limits::MAX_META_BYTES,
-                "metadata file",
-            )?;
+            let text =
+                crate::limits::read_text_capped(m, crate::limits::MAX_META_BYTES, "metadata file")?;
             let v: Value = serde_json::from_str(&text)
                 .map_err(|e| Error::format(m, format!("not valid JSON: {e}")))?;
             crate::limits::check_json_depth(&v, m)?;
@@ -310,9 +312,7 @@ pub fn adopt(input: &Path, radar: &Path, out_dir: &Path, name: Option<&str>) -> 
         .get_mut("global")
         .and_then(Value::as_object_mut)
         .expect("global is an object (checked above)");
-    let exts = global
-        .entry("core:extensions")
-        .or_insert_with(|| json!([]));
+    let exts = global.entry("core:extensions").or_insert_with(|| json!([]));
     let Some(exts) = exts.as_array_mut() else {
         return Err(Error::format(
             &source,
