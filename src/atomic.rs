@@ -258,6 +258,38 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
     f.commit()
 }
 
+/// Puts `source` in place at `target` as a hard link (no bytes copied), atomically: the
+/// link gets a unique temporary name beside the target and is renamed over it, so the
+/// target is the old file or the new one, never a half. Returns `Ok(false)` when the file
+/// system cannot link the two (another device, no hard links): the caller copies instead.
+pub fn link_atomic(source: &Path, target: &Path) -> Result<bool> {
+    let name = target
+        .file_name()
+        .ok_or_else(|| Error::format(target, "output path has no file name"))?
+        .to_string_lossy()
+        .into_owned();
+    let dir = folder_of(target);
+    sweep_stale(&dir, &name);
+    loop {
+        let tmp = temp_name(&dir, &name);
+        match std::fs::hard_link(source, &tmp) {
+            Ok(()) => {
+                if let Err(e) = std::fs::rename(&tmp, target) {
+                    let _ = std::fs::remove_file(&tmp);
+                    return Err(Error::io(target, e));
+                }
+                return Ok(true);
+            }
+            Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => continue,
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+                let which = if source.exists() { target } else { source };
+                return Err(Error::io(which, e));
+            }
+            Err(_) => return Ok(false),
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -11,6 +11,7 @@ pub mod frontend;
 pub mod limits;
 pub mod model;
 pub mod pipeline;
+pub mod progress;
 pub mod recording;
 pub mod report;
 pub mod simulate;

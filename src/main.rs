@@ -22,12 +22,18 @@ struct Cli {
     /// number, byte for byte.
     #[arg(long, global = true, default_value_t = 0)]
     jobs: usize,
+    /// No progress bars (they are drawn on stderr only when it is a terminal).
+    #[arg(long, global = true)]
+    quiet: bool,
     #[command(subcommand)]
     command: Command,
 }
 
 /// `--jobs`, set once by `run` (read by the batch loops).
 static JOBS: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
+
+/// `--quiet`, set once by `run`.
+static QUIET: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
 
 #[derive(Subcommand)]
 enum Command {
@@ -166,6 +172,22 @@ enum Command {
         #[arg(long)]
         track: Option<String>,
     },
+    /// Make a rotorsift recording from a plain SigMF recording or a raw IQ file, with the
+    /// radar's settings from a TOML file (labelled-demo/radars/ has one per demo radar).
+    Adopt {
+        /// A SigMF recording (NAME.sigmf-meta, NAME.sigmf-data or NAME) or a raw IQ file.
+        input: PathBuf,
+        /// The radar file: the rotorsift keys without their prefix (and, for a raw IQ
+        /// file, datatype, sample_rate_hz, carrier_hz, num_channels).
+        #[arg(long)]
+        radar: PathBuf,
+        /// Directory for NAME.sigmf-meta and NAME.sigmf-data (created if missing).
+        #[arg(long)]
+        out: PathBuf,
+        /// Base name of the new recording (default: the input's).
+        #[arg(long)]
+        name: Option<String>,
+    },
     /// Draw one picture as PNG: a CPI's range-Doppler map, or a track's spectrogram,
     /// cepstrogram or cadence-velocity diagram.
     Plot {
@@ -228,7 +250,7 @@ struct ProcessArgs {
     channel: usize,
     /// Chirps per coherent processing interval (Doppler FFT length); 0 = automatic
     /// (about 25.6 ms, a power of two, at least 256).
-    #[arg(long, default_value_t = 0)]
+    #[arg(long, default_value_t = 0, value_parser = parse_cpi)]
     cpi: usize,
     /// Chirps from one CPI to the next (0: half the CPI).
     #[arg(long, default_value_t = 0)]
@@ -304,6 +326,18 @@ fn parse_cadence_max(s: &str) -> std::result::Result<f64, String> {
     }
 }
 
+/// A CPI length: 0 (automatic) or a length the CFAR window fits in.
+fn parse_cpi(s: &str) -> std::result::Result<usize, String> {
+    let min = rotorsift::pipeline::DetectSettings::default().min_cpi_chirps();
+    let max = rotorsift::pipeline::settings::MAX_CPI_CHIRPS;
+    match s.parse::<usize>() {
+        Ok(v) if v == 0 || (min..=max).contains(&v) => Ok(v),
+        _ => Err(format!(
+            "{s}: expected 0 (automatic) or {min} to {max} chirps (the CFAR window spans {min} Doppler bins)"
+        )),
+    }
+}
+
 fn parse_canceller(s: &str) -> std::result::Result<Canceller, String> {
     s.parse::<Canceller>().map_err(|e| e.to_string())
 }
@@ -346,7 +380,10 @@ impl ProcessArgs {
 }
 
 /// The printed form of one analysed track (model fields left empty).
-fn track_out(t: &pipeline::AnalysedTrack) -> report::tracks::TrackOut {
+fn track_out(
+    t: &pipeline::AnalysedTrack,
+    params: &rotorsift::recording::RadarParams,
+) -> report::tracks::TrackOut {
     report::tracks::TrackOut {
         id: t.track.id,
         start_s: t.start_s,
@@ -363,6 +400,10 @@ fn track_out(t: &pipeline::AnalysedTrack) -> report::tracks::TrackOut {
         hovering: t.hovering(),
         blade_flash_hz: t.rotor.blade_flash_hz,
         tip_speed_mps: t.rotor.tip_speed_mps,
+        tip_speed_is_bound: t
+            .rotor
+            .tip_speed_mps
+            .is_some_and(|v| pipeline::tip_speed_is_bound(v, params)),
         blade_length_m: t.rotor.blade_length_m,
         notch_share: t.kinematics.notch_share,
         matched_label: None,
@@ -378,15 +419,22 @@ fn analyse_all(
     with_features: bool,
 ) -> Result<(Vec<pipeline::RecordingAnalysis>, bool)> {
     let paths = resolve_inputs(inputs)?;
+    let progress = rotorsift::progress::Progress::start(
+        &paths,
+        rotorsift::progress::wanted(QUIET.load(std::sync::atomic::Ordering::Relaxed)),
+    );
     let (out, outcome) = pipeline::run_batch_parallel(
         &paths,
         JOBS.load(std::sync::atomic::Ordering::Relaxed),
         |p| {
-            RecordingMeta::open(p)
-                .and_then(|m| pipeline::analyse(&m, channel, settings, with_features))
+            let r = RecordingMeta::open(p)
+                .and_then(|m| pipeline::analyse(&m, channel, settings, with_features));
+            progress.recording_done();
+            r
         },
         &mut |e| report_bad(e),
     );
+    drop(progress);
     report_summary(&outcome);
     Ok((out, outcome.any_failed()))
 }
@@ -427,7 +475,7 @@ fn exit_code(failed: bool) -> ExitCode {
 fn print_tracks(report: &report::tracks::TrackReport, format: Format) -> Result<()> {
     let text = match format {
         Format::Json => serde_json::to_string_pretty(report).context("encoding JSON")? + "\n",
-        Format::Table => report::tracks::to_table(report).render(),
+        Format::Table => report::tracks::render_table(report),
     };
     emit(&text)
 }
@@ -507,6 +555,7 @@ fn report_bad(e: &dyn std::fmt::Display) {
 
 fn run(cli: Cli) -> Result<ExitCode> {
     JOBS.store(cli.jobs, std::sync::atomic::Ordering::Relaxed);
+    QUIET.store(cli.quiet, std::sync::atomic::Ordering::Relaxed);
     match cli.command {
         Command::Info { inputs, format } => {
             let paths = resolve_inputs(&inputs)?;
@@ -522,10 +571,28 @@ fn run(cli: Cli) -> Result<ExitCode> {
                         .context("encoding JSON")?
                         + "\n"
                 }
+                // no empty header when no recording could be read
+                Format::Table if records.is_empty() => String::new(),
                 Format::Table => report::info::to_table(&records).render(),
             };
             emit(&text)?;
             Ok(exit_code(failed))
+        }
+        Command::Adopt {
+            input,
+            radar,
+            out,
+            name,
+        } => {
+            let a = rotorsift::recording::adopt::adopt(&input, &radar, &out, name.as_deref())?;
+            eprintln!(
+                "rotorsift: {} chirps {} {}",
+                a.meta.chirps,
+                if a.linked { "linked as" } else { "copied to" },
+                a.data_path.display()
+            );
+            emit(&format!("{}\n", a.meta_path.display()))?;
+            Ok(ExitCode::SUCCESS)
         }
         Command::Simulate { scene, out, seed } => {
             std::fs::create_dir_all(&out).with_context(|| format!("creating {}", out.display()))?;
@@ -590,10 +657,13 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 domain_step,
             };
             let (file, rep) = pipeline::classify::train(&analyses, &settings, &opts)?;
+            for note in &rep.notes {
+                eprintln!("rotorsift: note: {note}");
+            }
             file.save(&model)?;
             let text = match format {
                 Format::Json => serde_json::to_string_pretty(&rep)? + "\n",
-                Format::Table => report::scores::render_train(&rep, folds, &model),
+                Format::Table => report::scores::render_train(&rep, rep.folds, &model),
             };
             emit(&text)?;
             Ok(exit_code(failed))
@@ -610,10 +680,11 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 let mut tracks = Vec::new();
                 for t in &a.tracks {
                     let p = clf.predict(&t.features, model.min_confidence)?;
-                    let mut out = track_out(t);
+                    let mut out = track_out(t, &a.meta.params);
                     if !p.shows_rotor() {
                         out.blade_flash_hz = None;
                         out.tip_speed_mps = None;
+                        out.tip_speed_is_bound = false;
                         out.blade_length_m = None;
                     }
                     out.label = Some(p.label);
@@ -815,7 +886,11 @@ fn run(cli: Cli) -> Result<ExitCode> {
                     .map(|a| report::tracks::RecordingOut {
                         path: a.meta.meta_path.display().to_string(),
                         duration_s: a.meta.duration_s(),
-                        tracks: a.tracks.iter().map(track_out).collect(),
+                        tracks: a
+                            .tracks
+                            .iter()
+                            .map(|t| track_out(t, &a.meta.params))
+                            .collect(),
                     })
                     .collect(),
             };

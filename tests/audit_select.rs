@@ -50,7 +50,19 @@ fn predicted_lists_every_alarm_and_track_lists_one() {
         alarms.len(),
         "every rotorcraft alarm listed, nothing else"
     );
-    assert_eq!(page.matches("predicted rotorcraft").count(), alarms.len());
+    assert_eq!(
+        page.matches("<p class=\"why\">predicted rotorcraft")
+            .count(),
+        alarms.len()
+    );
+    // one element per listed track, named RECORDING:ID as `classify` prints them
+    for a in &alarms {
+        assert_eq!(
+            page.matches(&format!("data-track=\"{a}\"")).count(),
+            1,
+            "{a}"
+        );
+    }
 
     let one = dir.path().join("b");
     ok(&run(&[
@@ -63,5 +75,35 @@ fn predicted_lists_every_alarm_and_track_lists_one() {
     ]));
     let page = std::fs::read_to_string(one.join("index.html")).unwrap();
     assert_eq!(listed(&page), 1);
-    assert!(page.contains("asked for"));
+    assert!(page.contains("<p class=\"why\">asked for"));
+    assert!(page.contains(&format!("data-track=\"{}\"", alarms[0])));
+
+    // the default page lists every hovering rotorcraft, among the doubtful tracks
+    let v_hover: Vec<String> = v["recordings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .flat_map(|r| {
+            let name = r["path"]
+                .as_str()
+                .unwrap()
+                .rsplit('/')
+                .next()
+                .unwrap()
+                .replace(".sigmf-meta", "");
+            r["tracks"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .filter(|t| t["label"] == "rotorcraft" && t["hovering"] == true)
+                .map(move |t| format!("{name}:{}", t["id"]))
+                .collect::<Vec<_>>()
+        })
+        .collect();
+    let def = dir.path().join("c");
+    ok(&run(&["audit", &demo(), "--out", def.to_str().unwrap()]));
+    let page = std::fs::read_to_string(def.join("index.html")).unwrap();
+    for h in &v_hover {
+        assert!(page.contains(&format!("data-track=\"{h}\"")), "{h} listed");
+    }
 }

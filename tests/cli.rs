@@ -1489,3 +1489,108 @@ fn audit_writes_an_index_with_its_pictures() {
     // out of range: a usage error, one line, exit 2
     assert_one_error(&o, 2, &["--doubt", "2"]);
 }
+
+// ---------------------------------------------------------------------------------------
+// Rough edges a new user meets (docs/output-format.md: usage errors exit 2 in one line;
+// a bad file is one line naming it)
+// ---------------------------------------------------------------------------------------
+
+/// `train` on the demo's four recordings with the default 5 folds works: the folds are
+/// capped to the recordings, with a note.
+#[test]
+fn train_on_the_demo_caps_folds_to_the_recordings() {
+    let tmp = tempfile::tempdir().unwrap();
+    let model = tmp.path().join("m.json");
+    let demo = format!("{}/labelled-demo", env!("CARGO_MANIFEST_DIR"));
+    let o = run(&[
+        "train",
+        &demo,
+        "--model",
+        model.to_str().unwrap(),
+        "--trees",
+        "20",
+    ]);
+    let text = ok(&o);
+    assert!(model.is_file());
+    assert!(
+        stderr(&o).contains("--folds 5: only 4 labelled recordings, so 4 folds"),
+        "{}",
+        stderr(&o)
+    );
+    assert!(text.contains("grouped 4-fold"), "{text}");
+    assert!(!text.contains(" 1 recordings"), "{text}");
+}
+
+/// Out-of-range values are usage errors (exit 2, one line naming the value), `--cpi`
+/// below the CFAR window included; no message uses Rust's range syntax.
+#[test]
+fn out_of_range_values_are_usage_errors_in_plain_words() {
+    let cases: [(&[&str], &str); 4] = [
+        (&["detect", "x", "--pfa", "2"], "2"),
+        (&["detect", "x", "--cpi", "100000"], "100000"),
+        (&["detect", "x", "--cpi", "16"], "16"),
+        (&["classify", "x", "--min-confidence", "1.5"], "1.5"),
+    ];
+    for (args, value) in cases {
+        let line = assert_one_error(&run(args), 2, &[value]);
+        assert!(!line.contains("..="), "{args:?}: {line}");
+    }
+}
+
+/// When every input fails, no empty table header is printed; a missing model file is
+/// called the model file.
+#[test]
+fn failed_inputs_print_no_header_and_missing_model_is_named() {
+    let tmp = tempfile::tempdir().unwrap();
+    let bad = write(tmp.path(), "bad.sigmf-meta", "garbage");
+    write(tmp.path(), "bad.sigmf-data", "");
+    for cmd in ["detect", "classify", "info"] {
+        let o = run(&[cmd, bad.to_str().unwrap()]);
+        assert_one_error(&o, 1, &["bad.sigmf-meta"]);
+        assert!(o.stdout.is_empty(), "{cmd}: {}", stdout(&o));
+    }
+    let o = run(&[
+        "classify",
+        bad.to_str().unwrap(),
+        "--model",
+        "/no/such/model.json",
+    ]);
+    assert_one_error(&o, 1, &["model file", "/no/such/model.json"]);
+}
+
+/// The track table states its conventions under it (velocity sign: docs/recording-format.md
+/// section 5; SNR; hover as near-zero radial speed), and the JSON flags a tip speed at the
+/// unambiguous speed λ/(4T) as a bound (Richards 2014, from memory).
+#[test]
+fn track_tables_state_their_meanings_and_tip_bounds() {
+    let tmp = tempfile::tempdir().unwrap();
+    let meta = simulate(tmp.path(), "hov", &hover_scene(""), "rec", None).remove(0);
+    let table = ok(&run(&["classify", meta.to_str().unwrap()]));
+    for needle in [
+        "positive = receding",
+        "snr_dB: mean detection SNR",
+        "near-zero radial speed",
+        "lower bound",
+    ] {
+        assert!(table.contains(needle), "{needle}: {table}");
+    }
+    let v = ok_json(&run(&[
+        "classify",
+        meta.to_str().unwrap(),
+        "--format",
+        "json",
+    ]));
+    let vmax = C / K24_FC / (4.0 * K24_T);
+    for t in v["recordings"][0]["tracks"].as_array().unwrap() {
+        let bound = t["tip_speed_is_bound"]
+            .as_bool()
+            .expect("tip_speed_is_bound");
+        match t["tip_speed_mps"].as_f64() {
+            Some(tip) => assert_eq!(bound, tip >= vmax * (1.0 - 1e-6), "{t}"),
+            None => assert!(!bound, "{t}"),
+        }
+        if t["label"] == "bird" || t["label"] == "clutter" {
+            assert!(t["tip_speed_mps"].is_null());
+        }
+    }
+}

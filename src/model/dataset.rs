@@ -279,7 +279,7 @@ impl Dataset {
         let mut groups = self.group_rows();
         ensure(k >= 2 && k <= groups.len(), || {
             format!(
-                "k-fold: k = {k} is out of range; allowed 2..={} (the number of recordings)",
+                "k-fold: k = {k} folds is out of range; expected 2 to {} (the number of recordings)",
                 groups.len()
             )
         })?;

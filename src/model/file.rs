@@ -120,8 +120,13 @@ impl ModelFile {
 
     /// Reads a model file.
     pub fn load(path: &Path) -> Result<ModelFile> {
-        let s =
-            crate::limits::read_text_capped(path, crate::limits::MAX_MODEL_BYTES, "model file")?;
+        let s = crate::limits::read_text_capped(path, crate::limits::MAX_MODEL_BYTES, "model file")
+            .map_err(|e| match e {
+                Error::Io { path, err } => {
+                    Error::Invalid(format!("model file {}: {err}", path.display()))
+                }
+                other => other,
+            })?;
         Self::from_json_str(&s, path)
     }
 

@@ -94,7 +94,7 @@ impl ForestParams {
     /// Checks every setting against its allowed range.
     pub fn check(&self) -> Result<&Self> {
         ensure((1..=10_000).contains(&self.trees), || {
-            format!("trees = {} is out of range; allowed 1..=10000", self.trees)
+            format!("--trees {}: expected 1 to 10000 trees", self.trees)
         })?;
         if let Some(d) = self.max_depth {
             ensure(d >= 1, || {

@@ -1,7 +1,9 @@
 //! The audit: picks the tracks a person should look at — misclassified (against the
 //! annotation they match, docs/recording-format.md), low-confidence, or doubtful between
 //! bird and rotorcraft; or every track predicted one class ("every drone alarm"); or one
-//! named track — and draws each one's pictures. `report::audit` writes the HTML page.
+//! named track — and draws each one's pictures. Every track labelled rotorcraft whose
+//! body hovers is listed too (the tracks a site most needs to see). `report::audit` writes
+//! the HTML page.
 
 use std::collections::BTreeMap;
 use std::path::Path;
@@ -64,10 +66,20 @@ impl AuditParams {
     }
 }
 
+/// Features shown on every card besides the physical estimates: the model's most
+/// important ones (mean decrease in impurity), this many.
+pub const TOP_FEATURES: usize = 6;
+
 /// One listed track.
 #[derive(Debug, Clone)]
 pub struct AuditEntry {
     pub recording: String,
+    /// The recording's base name (no `.sigmf-meta`): `RECORDING` of `--track RECORDING:ID`.
+    pub name: String,
+    /// `core:datetime` of the recording, when it has one.
+    pub datetime: Option<String>,
+    /// Channel the analysis read (for the redraw command lines).
+    pub channel: usize,
     pub track_id: usize,
     pub start_s: f64,
     pub end_s: f64,
@@ -77,6 +89,18 @@ pub struct AuditEntry {
     pub hovering: bool,
     pub blade_flash_hz: Option<f64>,
     pub tip_speed_mps: Option<f64>,
+    /// True when the tip speed sits at the unambiguous speed (a lower bound).
+    pub tip_speed_is_bound: bool,
+    /// Harmonic-sum strength of the blade flashes, dB (blanked with the other rotor
+    /// figures for a track not taken to show a rotor).
+    pub blade_flash_strength_db: Option<f64>,
+    /// Wingbeat-band cadence (`cadence_low_hz`) and its strength, dB.
+    pub wingbeat_hz: Option<f64>,
+    pub wingbeat_strength_db: Option<f64>,
+    /// Share of the track's CPIs found only inside the canceller notch.
+    pub notch_share: f64,
+    /// The model's most important features with this track's values: (name, unit, value).
+    pub top_features: Vec<(&'static str, &'static str, f64)>,
     /// The matched annotation's label and target id, if any.
     pub truth: Option<String>,
     pub target_id: Option<String>,
@@ -98,7 +122,15 @@ pub struct Audit {
     /// Track-level counts (true label, predicted) over matched tracks.
     pub confusion: BTreeMap<(String, String), usize>,
     pub entries: Vec<AuditEntry>,
+    /// The selection rules in force, for the page's header.
+    pub params: AuditParams,
 }
+
+/// The rotorcraft class: its hovering tracks are always listed.
+pub const ROTORCRAFT: &str = "rotorcraft";
+
+/// The reason given to a hovering track labelled rotorcraft.
+pub const HOVERING_ROTORCRAFT: &str = "hovering rotorcraft";
 
 /// File-name-safe stem of a recording.
 fn stem(meta: &crate::recording::RecordingMeta) -> String {
@@ -127,8 +159,19 @@ pub fn audit(
     let mut out = Audit {
         model: clf.name.clone(),
         recordings: analyses.len(),
+        params: params.clone(),
         ..Default::default()
     };
+    // the model's most important features, by index into the feature vector
+    let mut ranked: Vec<(usize, f64)> = clf
+        .model
+        .forest
+        .feature_importances()
+        .into_iter()
+        .enumerate()
+        .collect();
+    ranked.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
+    ranked.truncate(TOP_FEATURES);
     let img = dir.join("img");
     std::fs::create_dir_all(&img).map_err(|e| crate::Error::io(&img, e))?;
     let mut picked: Vec<(usize, usize, AuditEntry)> = Vec::new();
@@ -164,6 +207,9 @@ pub fn audit(
                 reasons.push(format!("bird or rotorcraft? ({pb:.2} / {pr:.2})"));
                 score += 1.0;
             }
+            if p.label == ROTORCRAFT && t.hovering() {
+                reasons.push(HOVERING_ROTORCRAFT.into());
+            }
             let wanted = match (&named, &params.predicted) {
                 (Some(hit), _) => {
                     if *hit {
@@ -184,11 +230,23 @@ pub fn audit(
             }
             // what classify shows: no rotor figures for a track not taken to show a rotor
             let rotor = p.shows_rotor();
+            let feature = |f: crate::features::names::F| t.features.get(f as usize).copied();
+            use crate::features::names::{F, FEATURES};
+            let top_features = ranked
+                .iter()
+                .filter_map(|&(i, _)| {
+                    let info = FEATURES.get(i)?;
+                    Some((info.name, info.unit, *t.features.get(i)?))
+                })
+                .collect();
             picked.push((
                 ai,
                 ti,
                 AuditEntry {
                     recording: a.meta.meta_path.display().to_string(),
+                    name: name_of(&a.meta),
+                    datetime: a.meta.datetime.clone(),
+                    channel,
                     track_id: t.track.id,
                     start_s: t.start_s,
                     end_s: t.end_s,
@@ -198,6 +256,17 @@ pub fn audit(
                     hovering: t.hovering(),
                     blade_flash_hz: t.rotor.blade_flash_hz.filter(|_| rotor),
                     tip_speed_mps: t.rotor.tip_speed_mps.filter(|_| rotor),
+                    tip_speed_is_bound: rotor
+                        && t.rotor
+                            .tip_speed_mps
+                            .is_some_and(|v| super::tip_speed_is_bound(v, &a.meta.params)),
+                    blade_flash_strength_db: feature(F::FlashStrength)
+                        .filter(|_| rotor && t.rotor.blade_flash_hz.is_some()),
+                    wingbeat_hz: feature(F::CadenceLowHz).filter(|v| *v > 0.0),
+                    wingbeat_strength_db: feature(F::CadenceLowStrength)
+                        .filter(|_| feature(F::CadenceLowHz).is_some_and(|v| v > 0.0)),
+                    notch_share: t.kinematics.notch_share,
+                    top_features,
                     truth: ann.map(|x| x.label.clone()),
                     target_id: ann.and_then(|x| x.target_id.clone()),
                     prediction: p,

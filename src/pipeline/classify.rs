@@ -179,8 +179,13 @@ pub struct TrainReport {
     /// Track-level scores of a grouped k-fold cross-validation (every recording held out
     /// once), when asked for.
     pub cross_validated: Option<Scores>,
+    /// Folds of that cross-validation: `--folds`, capped to the labelled recordings.
+    pub folds: usize,
     /// Leave-one-radar-out cross-validation (with two radars or more).
     pub radar_cross_validated: Option<RadarCrossValidation>,
+    /// Notes for stderr (e.g. folds capped to the recordings).
+    #[serde(skip)]
+    pub notes: Vec<String>,
 }
 
 /// Trains on labelled analyses: scores a forest fitted on the training recordings on the
@@ -223,9 +228,23 @@ pub fn train(
         &mut probs,
     )?;
     let heldout = Scores::compute(data.class_names.clone(), &y_true, &y_pred, Some(&probs))?;
-    let cross_validated = if opts.folds >= 2 {
+    let recordings = data.group_names().len();
+    let mut notes = Vec::new();
+    let folds = if opts.folds > recordings {
+        notes.push(format!(
+            "--folds {}: only {recordings} labelled recording{}, so {} fold{} (one recording each)",
+            opts.folds,
+            if recordings == 1 { "" } else { "s" },
+            recordings,
+            if recordings == 1 { "" } else { "s" },
+        ));
+        recordings
+    } else {
+        opts.folds
+    };
+    let cross_validated = if folds >= 2 {
         let (mut t, mut p, mut pr) = (Vec::new(), Vec::new(), Vec::new());
-        for (train_k, test_k) in data.grouped_kfold(opts.folds, opts.seed)? {
+        for (train_k, test_k) in data.grouped_kfold(folds, opts.seed)? {
             fit_and_predict(
                 &data, &train_k, &test_k, &params, step, &mut t, &mut p, &mut pr,
             )?;
@@ -263,7 +282,9 @@ pub fn train(
         importances: importances.clone(),
         oob_accuracy: forest.oob_accuracy(),
         cross_validated,
+        folds,
         radar_cross_validated,
+        notes,
     };
     let training = serde_json::json!({
         "recordings": n_groups,
@@ -274,7 +295,7 @@ pub fn train(
         "heldout": &report.heldout,
         "heldout_recordings": &report.test_recordings,
         "cross_validated": &report.cross_validated,
-        "folds": opts.folds,
+        "folds": report.folds,
         "radar_cross_validated": &report.radar_cross_validated,
         "radars": lr.radars.iter().collect::<std::collections::BTreeSet<_>>(),
         "forest": &params,

@@ -116,8 +116,23 @@ fn median(x: &[f64]) -> f64 {
     }
 }
 
-/// Radial speed under which a track counts as hovering, m/s (docs/output-format.md).
+/// Radial speed under which a track counts as hovering, m/s (docs/output-format.md): the
+/// magnitude of its body's radial velocity. It is near-zero *radial* speed: a target
+/// crossing the beam at right angles shows it too, so `classify` prints it only for tracks
+/// it takes to show a rotor (`Prediction::shows_rotor`).
 pub const HOVER_SPEED_MPS: f64 = 0.5;
+
+/// Relative margin under the unambiguous speed at which a tip speed counts as clipped.
+/// The extractor caps the micro-Doppler extent at λ/(4T) (`features::Extractor`), so a
+/// capped value equals the limit up to rounding; 1e-6 is far above rounding and far below
+/// a velocity bin.
+pub const TIP_BOUND_MARGIN: f64 = 1e-6;
+
+/// Whether a tip speed sits at the radar's unambiguous speed λ/(4T), where the extractor
+/// clips it: the true tip speed is then that value or more (a lower bound).
+pub fn tip_speed_is_bound(tip_speed_mps: f64, params: &crate::recording::RadarParams) -> bool {
+    tip_speed_mps >= params.unambiguous_velocity_mps() * (1.0 - TIP_BOUND_MARGIN)
+}
 
 /// The body's radial velocity of a track, m/s. The per-CPI Doppler readings are the body
 /// line for most targets, but for a rotor whose body sits in the canceller notch they are

@@ -7,6 +7,10 @@ use crate::detect::{CfarKind, CfarParams, ClutterMapParams, MicroDopplerParams, 
 use crate::error::{ensure, Result};
 use crate::frontend::{Canceller, Window};
 
+/// Longest CPI, chirps (a Doppler FFT of 65536 bins: far beyond any useful dwell, and a
+/// cap on the memory of one map).
+pub const MAX_CPI_CHIRPS: usize = 1 << 16;
+
 /// Everything that shapes how a recording becomes tracks. Keys missing from a stored copy
 /// (a model file of an earlier version) take their defaults.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -127,13 +131,20 @@ impl DetectSettings {
         }
     }
 
+    /// The shortest CPI the CFAR window fits in: `2 (guard_doppler + train_doppler) + 1`
+    /// Doppler bins (the window of [`crate::detect::CfarParams`]), and at least 16.
+    pub fn min_cpi_chirps(&self) -> usize {
+        (2 * (self.cfar.guard_doppler + self.cfar.train_doppler) + 1).max(16)
+    }
+
     /// Checks every value; errors name the value and the allowed range.
     pub fn check(&self) -> Result<()> {
+        let min = self.min_cpi_chirps();
         ensure(
-            self.cpi_chirps == 0 || (self.cpi_chirps >= 16 && self.cpi_chirps <= 1 << 16),
+            self.cpi_chirps == 0 || (self.cpi_chirps >= min && self.cpi_chirps <= MAX_CPI_CHIRPS),
             || {
                 format!(
-                    "CPI length {} chirps: expected 16..=65536 (or 0 for automatic)",
+                    "--cpi {}: expected 0 (automatic) or {min} to {MAX_CPI_CHIRPS} chirps (the CFAR window spans {min} Doppler bins)",
                     self.cpi_chirps
                 )
             },
@@ -142,7 +153,7 @@ impl DetectSettings {
             self.cpi_hop == 0 || self.cpi_chirps == 0 || self.cpi_hop <= self.cpi_chirps,
             || {
                 format!(
-                    "CPI hop {} chirps: expected 1..=CPI length ({})",
+                    "--hop {}: expected 1 to the CPI length ({} chirps), or 0 for half the CPI",
                     self.cpi_hop, self.cpi_chirps
                 )
             },
@@ -185,7 +196,7 @@ impl DetectSettings {
         )?;
         ensure(
             self.leak_margin.is_finite() && self.leak_margin >= 0.0 && self.leak_margin <= 1e3,
-            || format!("leak margin {}: expected 0..=1000", self.leak_margin),
+            || format!("leak margin {}: expected 0 to 1000", self.leak_margin),
         )?;
         ensure(
             self.md_min_speed_mps.is_finite() && self.md_min_speed_mps >= 0.0,
@@ -200,7 +211,7 @@ impl DetectSettings {
             (0.0..=1.0).contains(&self.notch_confirm_fraction) && self.notch_confirm_points <= 1000,
             || {
                 format!(
-                    "notch confirmation {} / {} points: expected a share in 0..=1 and at most 1000 points",
+                    "notch confirmation {} / {} points: expected a share from 0 to 1 and at most 1000 points",
                     self.notch_confirm_fraction, self.notch_confirm_points
                 )
             },

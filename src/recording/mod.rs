@@ -1,8 +1,10 @@
 //! Radar recordings: SigMF with the `rotorsift` extension (docs/recording-format.md).
 //! [`RecordingMeta`] parses and validates the metadata, [`ChirpReader`] streams blocks of
 //! chirps, [`RecordingWriter`] writes recordings atomically, [`RadarParams`] holds the
-//! radar settings and their derived figures.
+//! radar settings and their derived figures; [`adopt`] makes a rotorsift recording out of a
+//! plain SigMF recording or a raw IQ file.
 
+pub mod adopt;
 mod input;
 mod meta;
 mod params;

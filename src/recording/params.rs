@@ -81,7 +81,7 @@ impl RadarParams {
             (8..=crate::limits::MAX_SAMPLES_PER_CHIRP).contains(&self.samples_per_chirp),
             || {
                 format!(
-                    "rotorsift:samples_per_chirp = {}: expected an integer in 8..={}",
+                    "rotorsift:samples_per_chirp = {}: expected an integer from 8 to {}",
                     self.samples_per_chirp,
                     crate::limits::MAX_SAMPLES_PER_CHIRP
                 )

@@ -140,6 +140,7 @@ impl ChirpReader {
                 .push(decode_checked(dt, &s[off..], &mut self.stats));
         }
         self.next_chirp += chirps;
+        crate::progress::count_chirps(chirps);
         Ok(chirps)
     }
 }

@@ -39,7 +39,7 @@ pub fn per_class_table(s: &Scores) -> Table {
 pub fn summary(s: &Scores) -> String {
     let f = |x: Option<f64>| x.map(|v| format!("{v:.4}")).unwrap_or_else(|| "-".into());
     format!(
-        "accuracy {:.4}  macro-F1 {:.4}  Brier {}  ECE {}\n",
+        "accuracy {:.4}  macro-F1 {:.4}  Brier {}  ECE (expected calibration error, 10 bins) {}\n",
         s.accuracy,
         s.macro_avg.f1,
         f(s.brier),
@@ -126,15 +126,29 @@ fn scores_by_radar(
     t
 }
 
+/// "s" for a count other than one.
+fn plural(n: usize) -> &'static str {
+    if n == 1 {
+        ""
+    } else {
+        "s"
+    }
+}
+
 /// The table report of `train`.
 pub fn render_train(rep: &TrainReport, folds: usize, model: &std::path::Path) -> String {
     let mut s = format!(
-        "trained on {} tracks ({} recordings); held out {} tracks of {} recordings; {} unmatched tracks left out\n\nheld-out confusion matrix (rows true, columns predicted):\n{}\n",
+        "trained on {} track{} ({} recording{}); held out {} track{} of {} recording{}; {} unmatched track{} left out\n\nheld-out confusion matrix (rows true, columns predicted):\n{}\n",
         rep.train_tracks,
+        plural(rep.train_tracks),
         rep.train_recordings,
+        plural(rep.train_recordings),
         rep.test_tracks,
+        plural(rep.test_tracks),
         rep.test_recordings.len(),
+        plural(rep.test_recordings.len()),
         rep.tracks_unmatched,
+        plural(rep.tracks_unmatched),
         render(&rep.heldout)
     );
     if let Some(cv) = &rep.cross_validated {

@@ -41,7 +41,7 @@ impl Table {
         let is_num = |c: &str| {
             !c.is_empty()
                 && c.chars()
-                    .all(|ch| ch.is_ascii_digit() || "+-.eE%".contains(ch))
+                    .all(|ch| ch.is_ascii_digit() || "+-.eE%≥".contains(ch))
         };
         // A column is numeric (right-aligned, header too) when its non-blank cells are.
         let numeric_col: Vec<bool> = (0..cols)

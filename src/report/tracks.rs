@@ -30,6 +30,9 @@ pub struct TrackOut {
     pub hovering: bool,
     pub blade_flash_hz: Option<f64>,
     pub tip_speed_mps: Option<f64>,
+    /// True when `tip_speed_mps` sits at the unambiguous speed limit: the tip is at least
+    /// that fast (a lower bound). False when it is a measurement or absent.
+    pub tip_speed_is_bound: bool,
     // Extra fields (allowed by the contract).
     pub blade_length_m: Option<f64>,
     pub notch_share: f64,
@@ -58,6 +61,48 @@ pub struct TrackReport {
 fn opt(x: Option<f64>, prec: usize) -> String {
     x.map(|v| format!("{v:.prec$}"))
         .unwrap_or_else(|| "-".into())
+}
+
+/// The lines printed under the table of `detect`/`classify`: what the columns mean
+/// (docs/output-format.md, `detect` and `classify`).
+pub fn table_notes(classify: bool) -> String {
+    let mut s = String::new();
+    s.push_str("vel_mps: radial velocity of the body; positive = receding (moving away), negative = approaching\n");
+    s.push_str("snr_dB: mean detection SNR over the track's CPIs (strongest range-Doppler cell over its CFAR noise estimate)\n");
+    if classify {
+        s.push_str("hover: yes when |vel_mps| < 0.5 (near-zero radial speed), shown for tracks labelled as showing a rotor; '-' for bird and clutter, whose near-zero radial speed (a bird crossing the beam) is no hover
+");
+        s.push_str(
+            "conf: probability of the label; unknown: under --min-confidence
+",
+        );
+    } else {
+        s.push_str("hover: yes when |vel_mps| < 0.5 (near-zero radial speed; a target crossing the beam at right angles shows it too)
+");
+    }
+    s.push_str("flash_Hz, tip_mps: blade-flash rate and blade-tip speed; '≥' marks a tip speed at the radar's unambiguous speed (a lower bound)
+");
+    s
+}
+
+/// The table and its notes, or nothing at all when no recording could be read (no empty
+/// header).
+pub fn render_table(report: &TrackReport) -> String {
+    if report.recordings.is_empty() {
+        return String::new();
+    }
+    let mut s = to_table(report).render();
+    s.push('\n');
+    s.push_str(&table_notes(report.model.is_some()));
+    s
+}
+
+/// The printed tip speed: `>=` before a value at the unambiguous speed limit.
+fn tip_cell(tr: &TrackOut) -> String {
+    match tr.tip_speed_mps {
+        Some(v) if tr.tip_speed_is_bound => format!("≥{v:.1}"),
+        other => opt(other, 1),
+    }
 }
 
 /// The table of `detect`/`classify`: one row per track.
@@ -93,9 +138,18 @@ pub fn to_table(report: &TrackReport) -> Table {
                 format!("{:.1}", tr.range_m),
                 format!("{:+.2}", tr.radial_velocity_mps),
                 format!("{:.1}", tr.snr_db),
-                if tr.hovering { "yes" } else { "no" }.to_string(),
+                match (&tr.label, tr.hovering) {
+                    (Some(l), _)
+                        if crate::pipeline::classify::NO_ROTOR_CLASSES.contains(&l.as_str()) =>
+                    {
+                        "-"
+                    }
+                    (_, true) => "yes",
+                    (_, false) => "no",
+                }
+                .to_string(),
                 opt(tr.blade_flash_hz, 0),
-                opt(tr.tip_speed_mps, 1),
+                tip_cell(tr),
             ];
             if classify {
                 row.push(tr.label.clone().unwrap_or_default());
