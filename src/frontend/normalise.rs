@@ -206,9 +206,16 @@ impl NoiseFloor {
         if out.dim() != (k, d) {
             *out = Array2::zeros((k, d));
         }
-        for ((ki, di), o) in out.indexed_iter_mut() {
-            let n = self.n_range[ki] * self.n_doppler[di] / std::f32::consts::LN_2;
-            *o = map.power[[ki, di]] / n;
+        for ((orow, prow), &nr) in out
+            .rows_mut()
+            .into_iter()
+            .zip(map.power.rows())
+            .zip(&self.n_range)
+        {
+            for ((o, &p), &nd) in orow.into_iter().zip(prow).zip(&self.n_doppler) {
+                let n = nr * nd / std::f32::consts::LN_2;
+                *o = p / n;
+            }
         }
         Ok(())
     }
