@@ -585,7 +585,10 @@ impl CfarPlan {
                     for run in runs(r, c, rr) {
                         below += run
                             .iter()
-                            .map(|&x| usize::from(!(x as f64 * e.to_noise * e.mult >= cut64)))
+                            .map(|&x| {
+                                let v = x as f64 * e.to_noise * e.mult;
+                                usize::from(v < cut64 || v.is_nan())
+                            })
                             .sum::<usize>();
                     }
                 }
