@@ -77,17 +77,26 @@ fn peak_rss_kib() -> Option<u64> {
         .and_then(|v| v.trim().trim_end_matches("kB").trim().parse().ok())
 }
 
-/// Child: `--child MODE META REPS`. Runs MODE on the recording REPS times and prints one
-/// line: `RESULT_TAG tracks=T best_s=B mean_s=M hwm_kib=H`.
+/// Child: `--child MODE META REPS THREADS`. Runs MODE on the recording REPS times on a
+/// rayon pool of THREADS threads (1 = one core: the pipeline's parallel parts run on the
+/// pool) and prints one line: `RESULT_TAG tracks=T best_s=B mean_s=M hwm_kib=H`.
 fn child(args: &[String]) -> BenchResult<()> {
-    let [mode, meta_path, reps] = args else {
-        return Err(format!("child expects MODE META REPS, got {args:?}").into());
+    let [mode, meta_path, reps, threads] = args else {
+        return Err(format!("child expects MODE META REPS THREADS, got {args:?}").into());
     };
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads.parse()?)
+        .build()?;
+    pool.install(|| child_on_pool(mode, meta_path, reps).map_err(|e| e.to_string()))?;
+    Ok(())
+}
+
+fn child_on_pool(mode: &str, meta_path: &str, reps: &str) -> BenchResult<()> {
     let reps: usize = reps.parse()?;
     let meta = RecordingMeta::open(Path::new(meta_path))?;
     let mut times = Vec::with_capacity(reps);
     let mut tracks = 0usize;
-    match mode.as_str() {
+    match mode {
         // Baseline: the process with the recording's metadata open and nothing run.
         "idle" => {}
         "read" => {
@@ -191,13 +200,14 @@ struct Measured {
 }
 
 /// Runs one measurement in a child process of this binary.
-fn run_child(mode: &str, meta: &Path, reps: usize) -> BenchResult<Measured> {
+fn run_child(mode: &str, meta: &Path, reps: usize, threads: usize) -> BenchResult<Measured> {
     let exe = std::env::current_exe()?;
     let out = Command::new(exe)
         .arg("--child")
         .arg(mode)
         .arg(meta)
         .arg(reps.to_string())
+        .arg(threads.to_string())
         .output()?;
     if !out.status.success() {
         return Err(format!(
@@ -354,16 +364,18 @@ fn parent(quick: bool, long: bool) -> BenchResult<()> {
         recordings.push((radar.clone(), *d, meta_path, meta));
     }
 
-    let idle = run_child("idle", &recordings[0].2, 0)?;
+    let idle = run_child("idle", &recordings[0].2, 0, 1)?;
     println!();
     println!(
         "Baseline peak RSS of a child that only opens a recording: {} MiB",
         mib(idle.hwm_kib)
     );
     println!();
-    println!("One core (each path in its own process; RTF = recording duration / time):");
     println!(
-        "{:<9} {:>4} {:>4} {:>7} {:>5} {:>7} {:>7} {:>7} {:>7} {:>6} {:>6} {:>6} {:>6} {:>6} {:>8}",
+        "One core unless said (each path in its own process; RTF = recording duration / time):"
+    );
+    println!(
+        "{:<9} {:>4} {:>4} {:>7} {:>5} {:>7} {:>7} {:>7} {:>7} {:>7} {:>6} {:>6} {:>6} {:>6} {:>6} {:>8}",
         "radar",
         "wave",
         "N",
@@ -371,6 +383,7 @@ fn parent(quick: bool, long: bool) -> BenchResult<()> {
         "dur s",
         "Msamp/s",
         "RTF",
+        "RTF all",
         "RTF det",
         "tracks",
         "read%",
@@ -380,14 +393,16 @@ fn parent(quick: bool, long: bool) -> BenchResult<()> {
         "x fft",
         "peak MiB"
     );
+    let cores = std::thread::available_parallelism().map_or(1, |n| n.get());
     let mut xband_60: Option<(PathBuf, f64, f64)> = None;
     for (radar, d, meta_path, meta) in &recordings {
         let samples = (meta.chirps * meta.params.samples_per_chirp * meta.num_channels) as f64;
         let reps = reps_for(*d, quick);
         let mut got = std::collections::BTreeMap::new();
         for mode in MODES {
-            got.insert(*mode, run_child(mode, meta_path, reps)?);
+            got.insert(*mode, run_child(mode, meta_path, reps, 1)?);
         }
+        let all_cores = run_child("full", meta_path, reps, cores)?;
         let (read, fft, det, full) = (&got["read"], &got["fft"], &got["detect"], &got["full"]);
         let dur = meta.duration_s();
         let share = |x: f64| 100.0 * x / full.best_s;
@@ -396,7 +411,7 @@ fn parent(quick: bool, long: bool) -> BenchResult<()> {
             rotorsift::recording::Waveform::RangeProfile => "prof",
         };
         println!(
-            "{:<9} {:>4} {:>4} {:>7.0} {:>5.0} {:>7.2} {:>7.1} {:>7.1} {:>7} {:>6.1} {:>6.1} {:>6.1} {:>6.1} {:>6.1} {:>8}",
+            "{:<9} {:>4} {:>4} {:>7.0} {:>5.0} {:>7.2} {:>7.1} {:>7.1} {:>7.1} {:>7} {:>6.1} {:>6.1} {:>6.1} {:>6.1} {:>6.1} {:>8}",
             radar,
             wave,
             meta.params.samples_per_chirp,
@@ -404,6 +419,7 @@ fn parent(quick: bool, long: bool) -> BenchResult<()> {
             dur,
             samples / full.best_s / 1e6,
             dur / full.best_s,
+            dur / all_cores.best_s,
             dur / det.best_s,
             full.tracks,
             share(read.best_s),
@@ -419,7 +435,8 @@ fn parent(quick: bool, long: bool) -> BenchResult<()> {
     }
     println!();
     println!(
-        "RTF: full path (pass one, pass two, features, built-in model); RTF det: pass one \
+        "RTF: full path (pass one, pass two, features, built-in model); RTF all: the same on \
+         every core (one recording); RTF det: pass one \
          alone; read%: decoding the samples; pass1%: detection past reading; rest%: pass \
          two, features and model; fft%: the bare rustfft cost of the same samples (range \
          FFT of every chirp, two Doppler maps a CPI) as a share of the full path, and x fft \
@@ -439,7 +456,6 @@ fn parent(quick: bool, long: bool) -> BenchResult<()> {
                 std::fs::copy(&data, &target)?;
             }
         }
-        let cores = std::thread::available_parallelism().map_or(1, |n| n.get());
         let one = classify_folder(&folder, 1)?;
         let all = classify_folder(&folder, 0)?;
         println!();

@@ -58,10 +58,11 @@ pub fn run_batch<T>(
     (out, outcome)
 }
 
-/// [`run_batch`] over up to `jobs` recordings at a time (0 = one per core), on rayon's
-/// pool. Each recording is still processed whole by one thread, so every result is the
-/// one a single thread gives, byte for byte; results and failure reports come in the
-/// order of `paths`.
+/// [`run_batch`] over up to `jobs` recordings at a time (0 = one per core), on a rayon
+/// pool of `jobs` threads. Within a recording the work that parallelises (the two map
+/// paths of a CPI, the tracks' range gates in pass two) spreads over the same pool, so
+/// `jobs = 1` is one core throughout. Every result is the one a single thread gives, byte
+/// for byte; results and failure reports come in the order of `paths`.
 pub fn run_batch_parallel<T: Send>(
     paths: &[PathBuf],
     jobs: usize,
@@ -69,14 +70,16 @@ pub fn run_batch_parallel<T: Send>(
     report: &mut dyn FnMut(&Error),
 ) -> (Vec<T>, BatchOutcome) {
     use rayon::prelude::*;
-    let run = || -> Vec<Result<T>> { paths.par_iter().map(|p| work(p)).collect() };
-    let results = if jobs == 1 || paths.len() < 2 {
-        paths.iter().map(|p| work(p)).collect()
-    } else {
-        match rayon::ThreadPoolBuilder::new().num_threads(jobs).build() {
-            Ok(pool) => pool.install(run),
-            Err(_) => paths.iter().map(|p| work(p)).collect(),
+    let run = || -> Vec<Result<T>> {
+        if paths.len() < 2 {
+            paths.iter().map(|p| work(p)).collect()
+        } else {
+            paths.par_iter().map(|p| work(p)).collect()
         }
+    };
+    let results = match rayon::ThreadPoolBuilder::new().num_threads(jobs).build() {
+        Ok(pool) => pool.install(run),
+        Err(_) => paths.iter().map(|p| work(p)).collect(),
     };
     let mut out = Vec::with_capacity(paths.len());
     let mut outcome = BatchOutcome {

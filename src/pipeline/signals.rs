@@ -8,6 +8,7 @@
 //! removes clutter with a narrow notch. Streams the recording again; memory holds only the
 //! tracks' own samples (each capped at `max_chirps`).
 
+use rayon::prelude::*;
 use rustfft::num_complex::Complex32;
 
 use super::settings::DetectSettings;
@@ -52,6 +53,9 @@ pub fn gate_noise_gain(waveform: Waveform) -> f64 {
     }
 }
 
+/// Samples of one block's windowed copy in pass two (16 bytes each: 16 MiB).
+const MAX_WINDOWED_SAMPLES: usize = 1 << 20;
+
 /// Independent phasor chains of the FMCW gate: the recursion `z <- z rot` is a chain of
 /// dependent multiplies; `LANES` chains stepping by `rot^LANES` run side by side (and
 /// vectorise), each sample's phasor still the exact recursion's to rounding.
@@ -62,8 +66,11 @@ struct RangeGate {
     window: Vec<f32>,
     fmcw: bool,
     cells: usize,
-    /// The windowed chirp, f64 (FMCW), shared by the gates of one chirp.
+    /// The windowed chirps of a block, f64 (FMCW), chirp after chirp, shared by every
+    /// gate of the block.
     windowed: Vec<(f64, f64)>,
+    /// Samples a chirp.
+    n: usize,
 }
 
 impl RangeGate {
@@ -73,27 +80,32 @@ impl RangeGate {
             window: s.range_window.coefficients(n),
             fmcw: meta.params.waveform() == Waveform::FmcwBeat,
             cells: meta.params.range_bins(),
-            windowed: Vec::with_capacity(n),
+            windowed: Vec::new(),
+            n,
         }
     }
 
-    /// Loads one chirp; the gates of [`RangeGate::at`] then read it.
-    fn load(&mut self, chirp: &[Complex32]) {
+    /// Loads the chirps of a block (FMCW: windows them); [`RangeGate::at`] then reads them.
+    fn load<'a>(&mut self, chirps: impl Iterator<Item = &'a [Complex32]>) {
         if self.fmcw {
             self.windowed.clear();
-            self.windowed.extend(
-                chirp
-                    .iter()
-                    .zip(&self.window)
-                    .map(|(x, &w)| (x.re as f64 * w as f64, x.im as f64 * w as f64)),
-            );
+            for chirp in chirps {
+                self.windowed.extend(
+                    chirp
+                        .iter()
+                        .zip(&self.window)
+                        .map(|(x, &w)| (x.re as f64 * w as f64, x.im as f64 * w as f64)),
+                );
+            }
         }
     }
 
     /// FMCW: sum_n w[n] x[n] exp(-j 2 pi kappa n / N) (the range FFT's bin kappa, for
     /// fractional kappa, phase referred to the chirp's centre) of the loaded chirp; range
     /// profile: the weighted sum of the cells around kappa (`RANGE_PROFILE_REACH`).
-    fn at(&self, chirp: &[Complex32], kappa: f64) -> Complex32 {
+    /// `chirp` is the block's chirp `i` (range profiles read it; FMCW reads the loaded
+    /// windowed copy).
+    fn at(&self, chirp: &[Complex32], i: usize, kappa: f64) -> Complex32 {
         if !self.fmcw {
             let top = (self.cells - 1) as f64;
             let lo = (kappa - RANGE_PROFILE_REACH).ceil().clamp(0.0, top) as usize;
@@ -105,7 +117,7 @@ impl RangeGate {
             }
             return acc;
         }
-        let xw = &self.windowed;
+        let xw = &self.windowed[i * self.n..(i + 1) * self.n];
         let n = xw.len() as f64;
         let step = -2.0 * std::f64::consts::PI * kappa / n;
         // Index counted from the chirp's centre, so the gate's phase does not depend on how
@@ -231,50 +243,64 @@ pub fn track_signals(
     reader.seek_chirp(first)?;
     let mut block = ChirpBlock::default();
     let t = meta.params.chirp_interval_s;
+    let fold = |k: f64| {
+        let k = if k < ref_lo {
+            k + 2.0 * REFERENCE_OFFSET_CELLS
+        } else if k > ref_hi {
+            k - 2.0 * REFERENCE_OFFSET_CELLS
+        } else {
+            k
+        };
+        k.clamp(ref_lo, ref_hi)
+    };
+    // Chirps a block: up to 2048, fewer for long chirps so the windowed copy stays small.
+    let per_block = (MAX_WINDOWED_SAMPLES / meta.params.samples_per_chirp.max(1)).clamp(16, 2048);
     let mut m = first;
+    let mut ending: Vec<(usize, usize)> = Vec::new();
     while m < last {
-        let got = reader.read_block(&mut block, 2048.min(last - m))?;
+        let got = reader.read_block(&mut block, per_block.min(last - m))?;
         if got == 0 {
             break;
         }
-        for i in 0..got {
-            let chirp = block.first_chirp + i;
-            let x = block.chirp(i);
-            let mut loaded = false;
-            for (j, sp) in spans.iter().enumerate() {
-                if chirp < sp.0 || chirp >= sp.1 {
-                    continue;
-                }
-                let Some(sig) = open[j].as_mut() else {
-                    continue;
+        let (b0, b1) = (block.first_chirp, block.first_chirp + got);
+        gate.load((0..got).map(|i| block.chirp(i)));
+        // Every track open in this block gates its chirps of the block: independent of
+        // each other, so spread over the pool's threads (each track's samples in chirp
+        // order whatever the number of threads).
+        let (gate, block) = (&gate, &block);
+        open.par_iter_mut()
+            .zip(spans.par_iter())
+            .zip(tracks.par_iter())
+            .for_each(|((sig, sp), track)| {
+                let Some(sig) = sig.as_mut() else {
+                    return;
                 };
-                if !loaded {
-                    gate.load(x);
-                    loaded = true;
+                for chirp in sp.0.max(b0)..sp.1.min(b1) {
+                    let i = chirp - b0;
+                    let x = block.chirp(i);
+                    let kappa = bin_at(track, meta, chirp as f64 * t);
+                    let (k1, k2) = (
+                        fold(kappa + REFERENCE_OFFSET_CELLS),
+                        fold(kappa - REFERENCE_OFFSET_CELLS),
+                    );
+                    sig.samples.push(gate.at(x, i, kappa));
+                    sig.reference.push(gate.at(x, i, k1));
+                    sig.reference2.push(gate.at(x, i, k2));
                 }
-                let kappa = bin_at(&tracks[j], meta, chirp as f64 * t);
-                let fold = |k: f64| {
-                    let k = if k < ref_lo {
-                        k + 2.0 * REFERENCE_OFFSET_CELLS
-                    } else if k > ref_hi {
-                        k - 2.0 * REFERENCE_OFFSET_CELLS
-                    } else {
-                        k
-                    };
-                    k.clamp(ref_lo, ref_hi)
-                };
-                let (k1, k2) = (
-                    fold(kappa + REFERENCE_OFFSET_CELLS),
-                    fold(kappa - REFERENCE_OFFSET_CELLS),
-                );
-                sig.samples.push(gate.at(x, kappa));
-                sig.reference.push(gate.at(x, k1));
-                sig.reference2.push(gate.at(x, k2));
-                if chirp + 1 == sp.1 {
-                    if let Some(sig) = open[j].take() {
-                        done(j, sig)?;
-                    }
-                }
+            });
+        // Handed over in the order of a chirp-by-chirp pass: by last chirp, then index.
+        ending.clear();
+        ending.extend(
+            spans
+                .iter()
+                .enumerate()
+                .filter(|(j, sp)| sp.1 > b0 && sp.1 <= b1 && sp.0 < sp.1 && open[*j].is_some())
+                .map(|(j, sp)| (sp.1, j)),
+        );
+        ending.sort_unstable();
+        for &(_, j) in &ending {
+            if let Some(sig) = open[j].take() {
+                done(j, sig)?;
             }
         }
         m += got;
@@ -306,6 +332,7 @@ mod tests {
                 fmcw: true,
                 cells: n,
                 windowed: Vec::new(),
+                n,
             };
             let chirp: Vec<Complex32> = (0..n)
                 .map(|i| {
@@ -313,7 +340,7 @@ mod tests {
                     Complex32::new(a.cos() * 100.0, (1.3 * a).sin() * 80.0)
                 })
                 .collect();
-            gate.load(&chirp);
+            gate.load(std::iter::once(&chirp[..]));
             for &kappa in &[0.0, 3.25, 17.8, n as f64 - 0.4] {
                 let (mut re, mut im) = (0.0f64, 0.0f64);
                 for i in 0..n {
@@ -327,7 +354,7 @@ mod tests {
                     re += xr * ph.cos() - xi * ph.sin();
                     im += xr * ph.sin() + xi * ph.cos();
                 }
-                let got = gate.at(&chirp, kappa);
+                let got = gate.at(&chirp, 0, kappa);
                 let scale = (re * re + im * im).sqrt().max(1.0);
                 let err = ((got.re as f64 - re).powi(2) + (got.im as f64 - im).powi(2)).sqrt();
                 assert!(

@@ -120,6 +120,7 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
     let mut md = MicroDopplerDetector::new(s.microdoppler)?;
     md.set_independence(hop as f64 / m as f64);
     let mut clusterer = Clusterer::new(ClusterParams::new(1)?)?;
+    let mut clusterer_slow = Clusterer::new(ClusterParams::new(1)?)?;
     let mut tracker = Tracker::new(s.tracker, p.range_cell_m())?;
 
     let notch = notch_mask(m, prf, lambda, s.notch_mps);
@@ -170,6 +171,7 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
     let mut out = vec![zero; k];
     let mut out_s = vec![zero; k];
     let mut hits: Vec<CfarHit> = Vec::new();
+    let mut hits_slow: Vec<CfarHit> = Vec::new();
     let mut cm_hits: Vec<ClutterMapHit> = Vec::new();
     let mut md_hits: Vec<MicroDopplerHit> = Vec::new();
     let mut dets: Vec<Detection> = Vec::new();
@@ -211,7 +213,14 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
             for (r, c) in reference.iter_mut().enumerate() {
                 *c = cmap.clutter_power(r) * window_energy;
             }
-            clutter_path.map_and_noise(pos)?;
+            // The two paths' maps are independent: made side by side when the pool has
+            // threads to spare (one after the other on one thread; the same either way).
+            let (rc, rs) = rayon::join(
+                || cancelled.map_and_noise(pos),
+                || clutter_path.map_and_noise(pos),
+            );
+            rc?;
+            rs?;
             let bl = *blind.get_or_insert_with(|| {
                 blind_cells(p.waveform(), &reference, &clutter_path, s.range_window, k)
             });
@@ -220,7 +229,6 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
                 allowed = Array2::from_shape_fn((k, m), |(r, d)| usable(r) && outside[d]);
                 allowed_notch = Array2::from_shape_fn((k, m), |(r, d)| usable(r) && notch[d]);
             }
-            cancelled.map_and_noise(pos)?;
             // The measured leak of strong stationary returns on both paths; a return that
             // does not stay put (foliage, a mast, a hovering airframe) is no reference.
             for (r, share) in residue.iter_mut().enumerate() {
@@ -241,97 +249,113 @@ pub fn find_tracks(meta: &RecordingMeta, channel: usize, s: &DetectSettings) -> 
                 &reference,
                 steady,
             );
-            // Cancelled map, normalised by noise plus what each cell's own stationary
-            // return can leak there.
-            cancelled.normalise_with_leak(
-                bl,
-                &reference,
-                &leak_c,
-                s.leak_margin,
-                &md_region,
-                &mut leak_scale,
-                &mut cell_scale,
-            )?;
-            let norm = &cancelled.norm;
-            cfar.detect(norm.view(), Some(allowed.view()), &mut hits)?;
-            // the margin over the expected leak: a hit must stand that much higher
-            hits.retain(|h| h.power > h.noise * cfar_alpha * leak_scale[[h.range, h.doppler]]);
-            if !skirt_bins.is_empty() {
-                skirt_hits.clear();
-                skirt_cfar.detect_and_update(
-                    cancelled.map.power.view(),
-                    |_, _| true,
-                    &mut skirt_hits,
-                );
-                skirt_pass.fill(false);
-                for h in &skirt_hits {
-                    skirt_pass[h.range * skirt_bins.len() + skirt_index[h.doppler]] = true;
-                }
-                let nb = skirt_bins.len();
-                let d_ref = m / 4;
-                hits.retain(|h| {
-                    let j = skirt_index[h.doppler];
-                    j == usize::MAX
-                        || reference[h.range] < STRONG_CNR * cancelled.noise_at(h.range, d_ref)
-                        || skirt_pass[h.range * nb + j]
-                });
-            }
-            clusterer.cluster(&hits, &range_of_cell, &vel_of_bin, &in_notch, &mut dets);
-            n_cfar += dets.len();
-            let before = dets.len();
-            // Clutter-map path, notch bins: a cell against its own history (clutter-map
-            // CFAR: what arrives) or against its neighbours (CFAR: what was there from the
-            // start), and always above its noise and above the leak floor of its
-            // stationary return. What stays of a scintillating building is then left to
-            // the track's confirmation (`confirm_notch_tracks`).
-            cm_hits.clear();
-            clutter_path.normalise_into_norm()?;
-            cfar_slow.detect(
-                clutter_path.norm.view(),
-                Some(allowed_notch.view()),
-                &mut hits,
-            )?;
-            {
-                let cp = &clutter_path;
-                let floor = |r: usize, d: usize| {
-                    notch_noise_alpha * cp.noise_at(r, d)
-                        + s.leak_margin * leak_s.ratio(d) * reference[r]
-                };
-                let above = |r: usize, d: usize| usable(r) && cp.map.power[[r, d]] > floor(r, d);
-                cm_cfar.detect_and_update(cp.map.power.view(), above, &mut cm_hits);
-                for h in &hits {
-                    if above(h.range, h.doppler)
-                        && !cm_hits
-                            .iter()
-                            .any(|c| c.range == h.range && c.doppler == h.doppler)
-                    {
-                        cm_hits.push(ClutterMapHit {
-                            range: h.range,
-                            doppler: h.doppler,
-                            ratio: 0.0,
+            // The cancelled path (CFAR outside the notch) and the clutter-map path (the
+            // notch) touch disjoint state: run side by side, like the maps.
+            let (ra, rb) = rayon::join(
+                || -> Result<()> {
+                    // Cancelled map, normalised by noise plus what each cell's own stationary
+                    // return can leak there.
+                    cancelled.normalise_with_leak(
+                        bl,
+                        &reference,
+                        &leak_c,
+                        s.leak_margin,
+                        &md_region,
+                        &mut leak_scale,
+                        &mut cell_scale,
+                    )?;
+                    cfar.detect(cancelled.norm.view(), Some(allowed.view()), &mut hits)?;
+                    // the margin over the expected leak: a hit must stand that much higher
+                    hits.retain(|h| {
+                        h.power > h.noise * cfar_alpha * leak_scale[[h.range, h.doppler]]
+                    });
+                    if !skirt_bins.is_empty() {
+                        skirt_hits.clear();
+                        skirt_cfar.detect_and_update(
+                            cancelled.map.power.view(),
+                            |_, _| true,
+                            &mut skirt_hits,
+                        );
+                        skirt_pass.fill(false);
+                        for h in &skirt_hits {
+                            skirt_pass[h.range * skirt_bins.len() + skirt_index[h.doppler]] = true;
+                        }
+                        let nb = skirt_bins.len();
+                        let d_ref = m / 4;
+                        hits.retain(|h| {
+                            let j = skirt_index[h.doppler];
+                            j == usize::MAX
+                                || reference[h.range]
+                                    < STRONG_CNR * cancelled.noise_at(h.range, d_ref)
+                                || skirt_pass[h.range * nb + j]
                         });
                     }
-                }
-            }
-            hits.clear();
-            hits.extend(cm_hits.iter().map(|h| {
-                let power = clutter_path.map.power[[h.range, h.doppler]];
-                let noise = clutter_path.noise_at(h.range, h.doppler);
-                CfarHit {
-                    range: h.range,
-                    doppler: h.doppler,
-                    power,
-                    noise,
-                    snr_db: 10.0 * (power / noise.max(f32::MIN_POSITIVE)).log10(),
-                }
-            }));
-            clusterer.cluster(
-                &hits,
-                &range_of_cell,
-                &vel_of_bin,
-                &in_notch,
-                &mut slow_dets,
+                    clusterer.cluster(&hits, &range_of_cell, &vel_of_bin, &in_notch, &mut dets);
+                    Ok(())
+                },
+                || -> Result<()> {
+                    // Clutter-map path, notch bins: a cell against its own history (clutter-map
+                    // CFAR: what arrives) or against its neighbours (CFAR: what was there from the
+                    // start), and always above its noise and above the leak floor of its
+                    // stationary return. What stays of a scintillating building is then left to
+                    // the track's confirmation (`confirm_notch_tracks`).
+                    cm_hits.clear();
+                    clutter_path.normalise_into_norm()?;
+                    cfar_slow.detect(
+                        clutter_path.norm.view(),
+                        Some(allowed_notch.view()),
+                        &mut hits_slow,
+                    )?;
+                    {
+                        let cp = &clutter_path;
+                        let floor = |r: usize, d: usize| {
+                            notch_noise_alpha * cp.noise_at(r, d)
+                                + s.leak_margin * leak_s.ratio(d) * reference[r]
+                        };
+                        let above =
+                            |r: usize, d: usize| usable(r) && cp.map.power[[r, d]] > floor(r, d);
+                        cm_cfar.detect_and_update(cp.map.power.view(), above, &mut cm_hits);
+                        for h in &hits_slow {
+                            if above(h.range, h.doppler)
+                                && !cm_hits
+                                    .iter()
+                                    .any(|c| c.range == h.range && c.doppler == h.doppler)
+                            {
+                                cm_hits.push(ClutterMapHit {
+                                    range: h.range,
+                                    doppler: h.doppler,
+                                    ratio: 0.0,
+                                });
+                            }
+                        }
+                    }
+                    hits_slow.clear();
+                    hits_slow.extend(cm_hits.iter().map(|h| {
+                        let power = clutter_path.map.power[[h.range, h.doppler]];
+                        let noise = clutter_path.noise_at(h.range, h.doppler);
+                        CfarHit {
+                            range: h.range,
+                            doppler: h.doppler,
+                            power,
+                            noise,
+                            snr_db: 10.0 * (power / noise.max(f32::MIN_POSITIVE)).log10(),
+                        }
+                    }));
+                    clusterer_slow.cluster(
+                        &hits_slow,
+                        &range_of_cell,
+                        &vel_of_bin,
+                        &in_notch,
+                        &mut slow_dets,
+                    );
+                    Ok(())
+                },
             );
+            ra?;
+            rb?;
+            n_cfar += dets.len();
+            let before = dets.len();
+            let norm = &cancelled.norm;
             for d in slow_dets.drain(..) {
                 if !covered(&d, &dets, p.range_cell_m()) {
                     dets.push(Detection {
