@@ -47,6 +47,39 @@ pub fn median_of_keys(keys: &mut [i32]) -> f32 {
     }
 }
 
+/// [`median_of_keys`] with a guess: `[lo, hi)` is a band of keys expected to hold the
+/// median (e.g. around the last estimate of a slowly changing one). One pass counts the
+/// keys below the band and copies those inside it; when the median's rank (both middle
+/// ranks for an even count) falls inside, the selection runs on the band alone, else on
+/// everything. The result is the same either way; `keys` is left unchanged or reordered.
+pub fn median_of_keys_in_band(keys: &mut [i32], lo: i32, hi: i32, band: &mut Vec<i32>) -> f32 {
+    let n = keys.len();
+    if n == 0 {
+        return 0.0;
+    }
+    let upper = n / 2;
+    let lower = if n % 2 == 0 { upper - 1 } else { upper };
+    let mut below = 0usize;
+    band.clear();
+    for &k in keys.iter() {
+        below += usize::from(k < lo);
+        if k >= lo && k < hi {
+            band.push(k);
+        }
+    }
+    if below <= lower && upper < below + band.len() {
+        let j = upper - below;
+        let hi_value = select_key(band, j);
+        if n % 2 == 1 {
+            return hi_value;
+        }
+        // even: the lower middle is the largest key ranked below j (j >= 1 here)
+        let lo_value = band[..j].iter().copied().max().map_or(hi_value, from_total_key);
+        return 0.5 * (lo_value + hi_value);
+    }
+    median_of_keys(keys)
+}
+
 /// Median of `v` by the total order (mean of the two middle values for an even count; 0
 /// for none); reorders `v`.
 pub fn median_f32_in_place(v: &mut [f32]) -> f32 {
@@ -114,10 +147,20 @@ mod tests {
                 (x >> 8) as f32 / 1e5
             })
             .collect();
+        let mut band = Vec::new();
         for n in [300usize, 301] {
             let mut a = v[..n].to_vec();
             let mut k: Vec<i32> = a.iter().map(|&x| total_key(x)).collect();
-            assert_eq!(median_of_keys(&mut k), median_f32_in_place(&mut a));
+            let want = median_f32_in_place(&mut a);
+            let mut k2 = k.clone();
+            assert_eq!(median_of_keys(&mut k), want);
+            // any band, right or wrong, gives the same median
+            for (lo, hi) in [(0.0f32, 1e9), (want * 0.9, want * 1.1), (want, want * 1.0001),
+                (want * 1.01, want * 2.0), (0.0, want * 0.5), (want * 0.999, want)]
+            {
+                let got = median_of_keys_in_band(&mut k2, total_key(lo), total_key(hi), &mut band);
+                assert_eq!(got, want, "n {n} band {lo}..{hi}");
+            }
         }
     }
 }
