@@ -15,6 +15,9 @@ use crate::error::{ensure, Result};
 use crate::frontend::cadence::{CadenceDiagram, CadencePlan};
 use crate::frontend::cepstrum::{CepstrumPlan, FrameKind};
 use crate::frontend::{Scaling, StftParams, StftPlan, Window};
+/// The features' median is the high median (the upper middle value for an even count,
+/// [`crate::stats::median_high`]); the trained models were fitted with it.
+use crate::stats::median_high as median;
 
 /// Settings of feature extraction (stored in the model file: a model only applies to
 /// features made the same way).
@@ -133,11 +136,9 @@ const EXTENT_FLOOR_DB: f64 = 0.5;
 /// Chirps of the CPI the band SNRs are referred to (as the "clear" SNRs are).
 const BAND_CPI: f64 = 256.0;
 
-/// Power-of-two sample count nearest to `seconds * rate`, clamped to [lo, hi].
+/// Power-of-two sample count nearest (in log) to `seconds * rate`, clamped to [lo, hi].
 fn pow2_len(seconds: f64, rate: f64, lo: usize, hi: usize) -> usize {
-    let n = (seconds * rate).max(1.0);
-    let p = 2f64.powf(n.log2().round()) as usize;
-    p.clamp(lo, hi)
+    crate::stats::nearest_power_of_two(seconds * rate, lo, hi)
 }
 
 impl Extractor {
@@ -824,22 +825,9 @@ fn noise_level(p: &[f32]) -> f64 {
     (*q as f64 / std::f64::consts::LN_2).max(1e-30)
 }
 
-fn median(x: &[f64]) -> f64 {
-    if x.is_empty() {
-        return 0.0;
-    }
-    let mut v = x.to_vec();
-    let k = v.len() / 2;
-    let (_, m, _) = v.select_nth_unstable_by(k, |a, b| a.total_cmp(b));
-    *m
-}
-
+/// Sample standard deviation (n - 1), 0 for fewer than two values.
 fn std(x: &[f64]) -> f64 {
-    if x.len() < 2 {
-        return 0.0;
-    }
-    let m = x.iter().sum::<f64>() / x.len() as f64;
-    (x.iter().map(|a| (a - m) * (a - m)).sum::<f64>() / (x.len() - 1) as f64).sqrt()
+    crate::stats::mean_std(x).1
 }
 
 /// (frequency of the largest value, 10 log10(largest / median)) of a band.
