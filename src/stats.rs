@@ -1,6 +1,8 @@
 //! Small statistics shared across the crate: order statistics of `f32` data by the IEEE 754
 //! total order (the order of `f32::total_cmp`), medians and quantiles of `f64` data, mean
-//! and standard deviation.
+//! and standard deviation, and the power of two nearest a length. Each has one home here;
+//! the conventions (even-count medians, sample or population deviation) are written on
+//! each function.
 //!
 //! The `f32` selections map each value to the integer key whose signed order is the
 //! total order (the transformation `f32::total_cmp` itself applies to both operands of every
@@ -96,6 +98,90 @@ pub fn median_f32_in_place(v: &mut [f32]) -> f32 {
     }
 }
 
+/// Median of `x` as numpy defines it (`numpy.median`: the middle value, or the mean of the
+/// two middle values for an even count), by `f64::total_cmp`'s order; 0 for none.
+pub fn median(x: &[f64]) -> f64 {
+    median_in_place(&mut x.to_vec())
+}
+
+/// [`median`] of `v` without a copy; reorders `v`.
+pub fn median_in_place(v: &mut [f64]) -> f64 {
+    let n = v.len();
+    if n == 0 {
+        return 0.0;
+    }
+    let (lower, &mut hi, _) = v.select_nth_unstable_by(n / 2, f64::total_cmp);
+    if n % 2 == 1 {
+        hi
+    } else {
+        let lo = lower.iter().copied().max_by(f64::total_cmp).unwrap_or(hi);
+        0.5 * (lo + hi)
+    }
+}
+
+/// The high median of `x` (Python's `statistics.median_high`): the middle value, or the
+/// larger of the two middle values for an even count — always one of the data, never a
+/// mean of two; by `f64::total_cmp`'s order; 0 for none.
+pub fn median_high(x: &[f64]) -> f64 {
+    if x.is_empty() {
+        return 0.0;
+    }
+    let mut v = x.to_vec();
+    let k = v.len() / 2;
+    *v.select_nth_unstable_by(k, f64::total_cmp).1
+}
+
+/// [`median_high`] of `f32` data by `f32::total_cmp`'s order (0 for none); reorders `v`.
+pub fn median_high_f32_in_place(v: &mut [f32]) -> f32 {
+    if v.is_empty() {
+        return 0.0;
+    }
+    let k = v.len() / 2;
+    *v.select_nth_unstable_by(k, f32::total_cmp).1
+}
+
+/// The `q` quantile (0..1) of `v`, sorted ascending and non-empty: linear interpolation
+/// between order statistics at position `q (n - 1)` (numpy's default `method='linear'`,
+/// Hyndman & Fan 1996 definition 7).
+pub fn quantile_sorted(v: &[f64], q: f64) -> f64 {
+    let pos = q * (v.len() - 1) as f64;
+    let lo = pos.floor() as usize;
+    let hi = (lo + 1).min(v.len() - 1);
+    v[lo] + (v[hi] - v[lo]) * (pos - lo as f64)
+}
+
+/// [`quantile_sorted`] of unsorted data (sorted by `f64::total_cmp`); 0 for none.
+pub fn quantile(x: &[f64], q: f64) -> f64 {
+    if x.is_empty() {
+        return 0.0;
+    }
+    let mut v = x.to_vec();
+    v.sort_unstable_by(f64::total_cmp);
+    quantile_sorted(&v, q)
+}
+
+/// Mean and *sample* standard deviation of `x` (divisor n - 1: numpy `std(ddof=1)`); the
+/// deviation is 0 for fewer than two values, the mean 0 for none.
+pub fn mean_std(x: &[f64]) -> (f64, f64) {
+    if x.is_empty() {
+        return (0.0, 0.0);
+    }
+    let m = x.iter().sum::<f64>() / x.len() as f64;
+    if x.len() < 2 {
+        return (m, 0.0);
+    }
+    let ss = x.iter().map(|a| (a - m) * (a - m)).sum::<f64>();
+    (m, (ss / (x.len() - 1) as f64).sqrt())
+}
+
+/// The power of two nearest `n` in log scale (`2^round(log2 n)`, so 362 -> 256 and
+/// 363 -> 512), `n` taken as at least 1, clamped to `[lo, hi]`.
+pub fn nearest_power_of_two(n: f64, lo: usize, hi: usize) -> usize {
+    let n = n.max(1.0);
+    let p = 2f64.powf(n.log2().round()) as usize;
+    p.clamp(lo, hi)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -162,5 +248,30 @@ mod tests {
                 assert_eq!(got, want, "n {n} band {lo}..{hi}");
             }
         }
+    }
+
+    /// numpy's values: median([3, 1, 2]) = 2, median([4, 1, 3, 2]) = 2.5, high median 3
+    /// (Python statistics.median_high); np.quantile([1, 2, 3, 4], 0.25) = 1.75 and 0.995
+    /// -> 3.985 (method 'linear'); np.std([2, 4, 4, 4, 5, 5, 7, 9], ddof=1) = 2.13809
+    /// (sqrt(32 / 7)), mean 5.
+    #[test]
+    fn f64_statistics_match_numpy_definitions() {
+        assert_eq!(median(&[3.0, 1.0, 2.0]), 2.0);
+        assert_eq!(median(&[4.0, 1.0, 3.0, 2.0]), 2.5);
+        assert_eq!(median(&[]), 0.0);
+        assert_eq!(median_high(&[4.0, 1.0, 3.0, 2.0]), 3.0);
+        assert_eq!(median_high(&[3.0, 1.0, 2.0]), 2.0);
+        assert_eq!(median_high_f32_in_place(&mut [4.0, 1.0, 3.0, 2.0]), 3.0);
+        assert!((quantile(&[4.0, 1.0, 3.0, 2.0], 0.25) - 1.75).abs() < 1e-12);
+        assert!((quantile_sorted(&[1.0, 2.0, 3.0, 4.0], 0.995) - 3.985).abs() < 1e-12);
+        assert_eq!(quantile_sorted(&[5.0], 0.5), 5.0);
+        let (m, s) = mean_std(&[2.0, 4.0, 4.0, 4.0, 5.0, 5.0, 7.0, 9.0]);
+        assert_eq!(m, 5.0);
+        assert!((s - (32.0f64 / 7.0).sqrt()).abs() < 1e-12);
+        assert_eq!(mean_std(&[3.0]), (3.0, 0.0));
+        assert_eq!(nearest_power_of_two(362.0, 1, 1 << 20), 256);
+        assert_eq!(nearest_power_of_two(363.0, 1, 1 << 20), 512);
+        assert_eq!(nearest_power_of_two(0.0, 16, 4096), 16);
+        assert_eq!(nearest_power_of_two(1e9, 16, 4096), 4096);
     }
 }

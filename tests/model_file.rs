@@ -1,6 +1,8 @@
 //! The model file's refusals: wrong format name, a newer format_version, features or
-//! feature settings that differ from the running build's, a corrupt forest; and that a
-//! failed save leaves an existing model untouched.
+//! feature settings that differ from the running build's, a corrupt forest; that a
+//! failed save leaves an existing model untouched; and that a save over an existing model
+//! at the same path replaces it whole by a rename (POSIX rename(2) atomicity, common
+//! practice), never by rewriting the old file in place.
 
 use rotorsift::model::{Dataset, Forest, ForestParams, ModelFile};
 use serde_json::{json, Value};
@@ -140,4 +142,44 @@ fn failed_save_keeps_existing_file() {
     assert_eq!(left.len(), 2, "temp file removed");
     m.save(&path).unwrap();
     assert_eq!(ModelFile::load(&path).unwrap(), m);
+}
+
+/// Saving a second model to the same path as a first: the path then holds the second,
+/// whole, in a new file (another inode), while a handle opened on the first before the
+/// save still reads the first, byte for byte — the bytes were written elsewhere and
+/// renamed over the name (rename(2) is atomic: a reader of the path sees the old file or
+/// the new one, never a mix). A save that truncated and rewrote the file in place would
+/// show the second model, or part of it, through the old handle. No temporary is left.
+#[cfg(unix)]
+#[test]
+fn save_over_the_same_path_replaces_the_file_by_rename() {
+    use std::io::Read;
+    use std::os::unix::fs::MetadataExt;
+    let first = model();
+    let mut second = model();
+    second.training = json!({"note": "the second model"});
+    assert_ne!(first, second);
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("m.json");
+    first.save(&path).unwrap();
+    let first_text = std::fs::read_to_string(&path).unwrap();
+    let mut old = std::fs::File::open(&path).unwrap();
+    let old_inode = old.metadata().unwrap().ino();
+
+    second.save(&path).unwrap();
+
+    assert_eq!(ModelFile::load(&path).unwrap(), second, "the path holds the second model");
+    assert_ne!(
+        std::fs::metadata(&path).unwrap().ino(),
+        old_inode,
+        "the second model was written into the first's file, not renamed over it"
+    );
+    let mut through_old = String::new();
+    old.read_to_string(&mut through_old).unwrap();
+    assert_eq!(through_old, first_text, "the first file was changed in place");
+    let names: Vec<_> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name())
+        .collect();
+    assert_eq!(names, vec![std::ffi::OsString::from("m.json")], "temporaries left");
 }

@@ -173,17 +173,12 @@ pub struct Track {
     pub points: Vec<TrackPoint>,
 }
 
+/// numpy's median ([`crate::stats::median_in_place`]), NaN for a track without points.
 fn median(v: &mut [f64]) -> f64 {
     if v.is_empty() {
         return f64::NAN;
     }
-    v.sort_unstable_by(f64::total_cmp);
-    let n = v.len();
-    if n % 2 == 1 {
-        v[n / 2]
-    } else {
-        0.5 * (v[n / 2 - 1] + v[n / 2])
-    }
+    crate::stats::median_in_place(v)
 }
 
 impl Track {

@@ -10,11 +10,14 @@ use rustfft::num_complex::Complex32;
 use rustfft::{Fft, FftPlanner};
 use serde::{Deserialize, Serialize};
 
-use super::names::{count, F};
+use super::names::{count, FeatureId};
 use crate::error::{ensure, Result};
 use crate::frontend::cadence::{CadenceDiagram, CadencePlan};
 use crate::frontend::cepstrum::{CepstrumPlan, FrameKind};
 use crate::frontend::{Scaling, StftParams, StftPlan, Window};
+/// The features' median is the high median (the upper middle value for an even count,
+/// [`crate::stats::median_high`]); the trained models were fitted with it.
+use crate::stats::median_high as median;
 
 /// Settings of feature extraction (stored in the model file: a model only applies to
 /// features made the same way).
@@ -130,14 +133,27 @@ const PEAK_SKIRT_MPS: f64 = 8.0;
 /// Least excess over the reference noise level at which the extent is read, dB (the
 /// reference is another range gate; its level is measured over thousands of bins).
 const EXTENT_FLOOR_DB: f64 = 0.5;
+/// Half-width of the body line in the spectrum-shape features, m/s (and at least two
+/// bins): what `outside_share` and `spectral_symmetry` leave out (names.rs states 0.5 m/s).
+/// A project choice: a walking or gliding body's own spread stays within it.
+const BODY_HALF_WIDTH_MPS: f64 = 0.5;
+/// Share of the excess spectral energy `md_extent95_mps` encloses (its definition in
+/// names.rs, like a 95% occupied bandwidth: common practice).
+const EXTENT_ENERGY_SHARE: f64 = 0.95;
+/// The long-window mean spectrum is smoothed over +-nl / EXTENT_SMOOTH_DIVISOR bins (at
+/// least one) before its edge is read: 1/128 of the Doppler span either side, a project
+/// choice that averages the noise down (5 standard errors over 2w + 1 bins) while keeping
+/// the edge of a 40-80 m/s tip sharp to a few m/s.
+const EXTENT_SMOOTH_DIVISOR: usize = 128;
+/// Least tip speed at which a rotor counts as seen, m/s: a tip within the body band
+/// ([`BAND_BODY`], 2 m/s) cannot be told from the body's own spread.
+const MIN_ROTOR_TIP_MPS: f64 = BAND_BODY;
 /// Chirps of the CPI the band SNRs are referred to (as the "clear" SNRs are).
 const BAND_CPI: f64 = 256.0;
 
-/// Power-of-two sample count nearest to `seconds * rate`, clamped to [lo, hi].
+/// Power-of-two sample count nearest (in log) to `seconds * rate`, clamped to [lo, hi].
 fn pow2_len(seconds: f64, rate: f64, lo: usize, hi: usize) -> usize {
-    let n = (seconds * rate).max(1.0);
-    let p = 2f64.powf(n.log2().round()) as usize;
-    p.clamp(lo, hi)
+    crate::stats::nearest_power_of_two(seconds * rate, lo, hi)
 }
 
 impl Extractor {
@@ -235,16 +251,14 @@ impl Extractor {
         kin: &TrackKinematics,
     ) -> Result<(Vec<f64>, RotorEstimates)> {
         let mut v = vec![0.0f64; count()];
-        let set =
-            |v: &mut Vec<f64>, f: F, x: f64| v[f as usize] = if x.is_finite() { x } else { 0.0 };
-        set(&mut v, F::BodySpeed, kin.body_velocity_mps.abs());
-        set(&mut v, F::BodySpeedStd, kin.body_speed_std_mps);
-        set(&mut v, F::RangeRate, kin.range_rate_mps);
-        set(&mut v, F::RangeExtent, kin.range_extent_m);
-        set(&mut v, F::Duration, kin.duration_s);
-        set(&mut v, F::Snr, kin.snr_db);
-        set(&mut v, F::SnrStd, kin.snr_std_db);
-        set(&mut v, F::NotchShare, kin.notch_share);
+        set(&mut v, FeatureId::BodySpeed, kin.body_velocity_mps.abs());
+        set(&mut v, FeatureId::BodySpeedStd, kin.body_speed_std_mps);
+        set(&mut v, FeatureId::RangeRate, kin.range_rate_mps);
+        set(&mut v, FeatureId::RangeExtent, kin.range_extent_m);
+        set(&mut v, FeatureId::Duration, kin.duration_s);
+        set(&mut v, FeatureId::Snr, kin.snr_db);
+        set(&mut v, FeatureId::SnrStd, kin.snr_std_db);
+        set(&mut v, FeatureId::NotchShare, kin.notch_share);
         let none = RotorEstimates {
             blade_flash_hz: None,
             tip_speed_mps: None,
@@ -270,17 +284,16 @@ impl Extractor {
             .map(|c| (c.iter().map(|s| s.norm_sqr() as f64).sum::<f64>() / c.len() as f64).sqrt())
             .collect();
         let env_db: Vec<f64> = env.iter().map(|a| 20.0 * a.max(1e-30).log10()).collect();
-        set(&mut v, F::AmpStd, std(&env_db));
+        set(&mut v, FeatureId::AmpStd, std(&env_db));
         let env_rate = self.prf / env_decim as f64;
         let (hz, strength) = self.peak_in_band(&env, env_rate, 0.5, 30.0);
-        set(&mut v, F::AmpCadenceHz, hz);
-        set(&mut v, F::AmpCadenceStrength, strength);
+        set(&mut v, FeatureId::AmpCadenceHz, hz);
+        set(&mut v, FeatureId::AmpCadenceStrength, strength);
 
         // Micro-Doppler spectrogram (shifted: column nfft/2 = body line).
         let spec = self.stft.spectrogram(&z, true)?;
         let (frames, nfft) = spec.dim();
         let dv = self.prf / nfft as f64 * self.lambda / 2.0;
-        let vel = |d: usize| (d as f64 - (nfft / 2) as f64) * dv;
         let mut noise = f64::INFINITY;
         for r in &references {
             let zref = self.prepare(r, 0.0);
@@ -303,7 +316,6 @@ impl Extractor {
             *m /= frames as f64;
         }
         let excess: Vec<f64> = mean.iter().map(|m| (m - noise).max(0.0)).collect();
-        let total: f64 = excess.iter().sum();
         // Extent, read off the fine-resolution (long-window) mean spectrum: the outermost
         // Doppler where it stands out of the noise by 5 standard errors of a mean of
         // F (2w+1) exponential values and by at least 0.5 dB (the noise reference is another
@@ -322,93 +334,15 @@ impl Extractor {
         };
         let extent = match &long_mean {
             Some((lm, lframes)) => {
-                let nl = lm.len();
                 // The reference's own long-window level where there is one (a mean over
                 // its fast band, see `band_powers`); else the short spectrogram's.
-                let (noise_l, floor_db) = match band_noise {
-                    Some(n) => (n, EXTENT_FLOOR_DB),
-                    None => (noise * nfft as f64 / nl as f64, 0.5),
-                };
-                let dvl = self.prf / nl as f64 * self.lambda / 2.0;
-                let vl = |i: usize| {
-                    // natural order: bins above nl/2 are negative
-                    let k = if i <= nl / 2 {
-                        i as f64
-                    } else {
-                        i as f64 - nl as f64
-                    };
-                    k * dvl
-                };
-                let w = (nl / 128).max(1);
-                let smooth: Vec<f64> = (0..nl)
-                    .map(|d| {
-                        let sum: f64 = (0..=2 * w).map(|j| lm[(d + nl + j - w) % nl]).sum();
-                        sum / (2 * w + 1) as f64
-                    })
-                    .collect();
-                // The blade level: the strongest smoothed value more than PEAK_SKIRT_MPS (and
-                // 8 bins) from the body and the clutter line, clear of a strong body line's
-                // skirt (which at fine resolution reaches a few m/s: body flutter, range
-                // migration).
-                let skirt = PEAK_SKIRT_MPS.max(8.0 * dvl);
-                let v_clutter = -kin.body_velocity_mps;
-                let peak = (0..nl)
-                    .filter(|&d| vl(d).abs() > skirt && (vl(d) - v_clutter).abs() > skirt)
-                    .map(|d| smooth[d])
-                    .fold(0.0, f64::max);
-                let thr = (noise_l
-                    * (1.0 + 5.0 / ((lframes * (2 * w + 1)) as f64).sqrt())
-                        .max(10f64.powf(floor_db / 10.0)))
-                .max(peak * 10f64.powf(-REL_DB / 10.0));
-                (0..nl)
-                    .filter(|&d| smooth[d] > thr)
-                    .map(|d| vl(d).abs())
-                    .fold(0.0, f64::max)
+                let noise_l = band_noise.unwrap_or(noise * nfft as f64 / lm.len() as f64);
+                self.md_extent(lm, *lframes, noise_l, kin.body_velocity_mps)
             }
             None => 0.0,
         };
-        set(&mut v, F::MdExtent, extent);
-        let body_hw = (0.5f64).max(2.0 * dv);
-        if total > 0.0 {
-            let mut by_offset: Vec<(f64, f64)> =
-                (0..nfft).map(|d| (vel(d).abs(), excess[d])).collect();
-            by_offset.sort_by(|a, b| a.0.total_cmp(&b.0));
-            let mut acc = 0.0;
-            let mut e95 = 0.0;
-            for (off, e) in &by_offset {
-                acc += e;
-                if acc >= 0.95 * total {
-                    e95 = *off;
-                    break;
-                }
-            }
-            set(&mut v, F::MdExtent95, e95);
-            let outside: f64 = (0..nfft)
-                .filter(|&d| vel(d).abs() > body_hw)
-                .map(|d| excess[d])
-                .sum();
-            set(&mut v, F::OutsideShare, outside / total);
-            let h: f64 = excess
-                .iter()
-                .filter(|&&e| e > 0.0)
-                .map(|&e| {
-                    let p = e / total;
-                    -p * p.ln()
-                })
-                .sum();
-            set(&mut v, F::Entropy, h / (nfft as f64).ln());
-            let pos: f64 = (0..nfft)
-                .filter(|&d| vel(d) > body_hw)
-                .map(|d| excess[d])
-                .sum();
-            let neg: f64 = (0..nfft)
-                .filter(|&d| vel(d) < -body_hw)
-                .map(|d| excess[d])
-                .sum();
-            if pos + neg > 0.0 {
-                set(&mut v, F::Symmetry, (pos - neg) / (pos + neg));
-            }
-        }
+        set(&mut v, FeatureId::MdExtent, extent);
+        spectrum_shape(&excess, dv, &mut v);
 
         // Cepstrum of the fine-resolution mean log spectrum.
         if let Some((lm, _)) = &long_mean {
@@ -420,19 +354,20 @@ impl Extractor {
 
         // Blade flashes: power of the signal away from the body line, its periodicity.
         let (flash_hz, flash_db) = self.flash_rate(&z);
-        set(&mut v, F::FlashHz, flash_hz);
-        set(&mut v, F::FlashStrength, flash_db);
+        set(&mut v, FeatureId::FlashHz, flash_hz);
+        set(&mut v, FeatureId::FlashStrength, flash_db);
         let vmax = self.lambda / 4.0 * self.prf;
         let tip = extent.min(vmax);
-        set(&mut v, F::TipSpeed, tip);
-        let rotor_seen =
-            flash_db >= self.settings.rotor_min_strength_db && flash_hz > 0.0 && tip > 2.0;
+        set(&mut v, FeatureId::TipSpeed, tip);
+        let rotor_seen = flash_db >= self.settings.rotor_min_strength_db
+            && flash_hz > 0.0
+            && tip > MIN_ROTOR_TIP_MPS;
         let blade_len = if rotor_seen {
             tip / (2.0 * std::f64::consts::PI * flash_hz / 2.0)
         } else {
             0.0
         };
-        set(&mut v, F::BladeLength, blade_len);
+        set(&mut v, FeatureId::BladeLength, blade_len);
         let est = if rotor_seen {
             RotorEstimates {
                 blade_flash_hz: Some(flash_hz),
@@ -443,6 +378,50 @@ impl Extractor {
             none
         };
         Ok((v, est))
+    }
+
+    /// The micro-Doppler extent, m/s (see the comment in [`Extractor::extract`]): the
+    /// largest |velocity offset| at which the long-window mean spectrum `lm` (natural
+    /// order, a mean of `lframes` frames), smoothed, stands out of the noise level
+    /// `noise_l` by 5 standard errors and [`EXTENT_FLOOR_DB`], and lies within [`REL_DB`]
+    /// of the blade level.
+    fn md_extent(&self, lm: &[f64], lframes: usize, noise_l: f64, body_velocity_mps: f64) -> f64 {
+        let nl = lm.len();
+        let dvl = self.prf / nl as f64 * self.lambda / 2.0;
+        let vl = |i: usize| {
+            // natural order: bins above nl/2 are negative
+            let k = if i <= nl / 2 {
+                i as f64
+            } else {
+                i as f64 - nl as f64
+            };
+            k * dvl
+        };
+        let w = (nl / EXTENT_SMOOTH_DIVISOR).max(1);
+        let smooth: Vec<f64> = (0..nl)
+            .map(|d| {
+                let sum: f64 = (0..=2 * w).map(|j| lm[(d + nl + j - w) % nl]).sum();
+                sum / (2 * w + 1) as f64
+            })
+            .collect();
+        // The blade level: the strongest smoothed value more than PEAK_SKIRT_MPS (and
+        // 8 bins) from the body and the clutter line, clear of a strong body line's
+        // skirt (which at fine resolution reaches a few m/s: body flutter, range
+        // migration).
+        let skirt = PEAK_SKIRT_MPS.max(8.0 * dvl);
+        let v_clutter = -body_velocity_mps;
+        let peak = (0..nl)
+            .filter(|&d| vl(d).abs() > skirt && (vl(d) - v_clutter).abs() > skirt)
+            .map(|d| smooth[d])
+            .fold(0.0, f64::max);
+        let thr = (noise_l
+            * (1.0 + 5.0 / ((lframes * (2 * w + 1)) as f64).sqrt())
+                .max(10f64.powf(EXTENT_FLOOR_DB / 10.0)))
+        .max(peak * 10f64.powf(-REL_DB / 10.0));
+        (0..nl)
+            .filter(|&d| smooth[d] > thr)
+            .map(|d| vl(d).abs())
+            .fold(0.0, f64::max)
     }
 
     /// Strongest peak of the power spectrum of a real series (mean removed) between `lo`
@@ -551,8 +530,8 @@ impl Extractor {
         let to_db = |excess: f64| {
             (10.0 * (excess / total_noise * BAND_CPI * gain).max(1e-30).log10()).max(-5.0)
         };
-        v[F::FastBandSnr as usize] = to_db(fast - noise_bin * n_fast as f64);
-        v[F::SlowBandSnr as usize] = to_db(slow - noise_bin * n_slow as f64);
+        v[FeatureId::FastBandSnr as usize] = to_db(fast - noise_bin * n_fast as f64);
+        v[FeatureId::SlowBandSnr as usize] = to_db(slow - noise_bin * n_slow as f64);
         Ok(Some(noise_bin))
     }
 
@@ -592,7 +571,15 @@ impl Extractor {
             &mut scratch,
         )?;
         let c: Vec<f64> = c.iter().map(|&x| x as f64).collect();
-        for (i, f) in [F::Cep1, F::Cep2, F::Cep3, F::Cep4].iter().enumerate() {
+        for (i, f) in [
+            FeatureId::Cep1,
+            FeatureId::Cep2,
+            FeatureId::Cep3,
+            FeatureId::Cep4,
+        ]
+        .iter()
+        .enumerate()
+        {
             v[*f as usize] = c[i + 1];
         }
         // Quefrency q (in samples of 1/PRF) <-> line spacing PRF/q.
@@ -604,8 +591,8 @@ impl Extractor {
                 .collect();
             let med = median(&band.iter().map(|b| b.1).collect::<Vec<_>>()).max(1e-30);
             if let Some((hz, val)) = band.iter().cloned().max_by(|a, b| a.1.total_cmp(&b.1)) {
-                v[F::CepPeakHz as usize] = hz;
-                v[F::CepPeakStrength as usize] = val / med;
+                v[FeatureId::CepPeakHz as usize] = hz;
+                v[FeatureId::CepPeakStrength as usize] = val / med;
             }
         }
         Ok(())
@@ -657,11 +644,11 @@ impl Extractor {
             .collect();
         let high: Vec<(f64, f64)> = cvd.iter().cloned().filter(|(f, _)| *f > 30.0).collect();
         let (a, b) = peak_over_median(&low);
-        v[F::CadenceLowHz as usize] = a;
-        v[F::CadenceLowStrength as usize] = b;
+        v[FeatureId::CadenceLowHz as usize] = a;
+        v[FeatureId::CadenceLowStrength as usize] = b;
         let (a, b) = peak_over_median(&high);
-        v[F::CadenceHighHz as usize] = a;
-        v[F::CadenceHighStrength as usize] = b;
+        v[FeatureId::CadenceHighHz as usize] = a;
+        v[FeatureId::CadenceHighStrength as usize] = b;
         Ok(())
     }
 
@@ -697,24 +684,7 @@ impl Extractor {
         if hi <= lo + 4 {
             return (0.0, 0.0);
         }
-        // Whiten: divide by the local geometric mean over [f/1.4, 1.4 f], so the beats
-        // between several rotors' flash trains (a red spectrum at low rates) do not win.
-        let logp: Vec<f64> = spec.iter().map(|p| (p + 1e-30).ln()).collect();
-        let mut pre = vec![0.0f64; logp.len() + 1];
-        for (i, l) in logp.iter().enumerate() {
-            pre[i + 1] = pre[i] + l;
-        }
-        let white: Vec<f64> = (0..spec.len())
-            .map(|i| {
-                let a = ((i as f64 / 1.4) as usize).max(1);
-                let b = (((i as f64) * 1.4) as usize + 1).min(spec.len());
-                if b <= a + 2 {
-                    return 1.0;
-                }
-                let local = (pre[b] - pre[a]) / (b - a) as f64;
-                (logp[i] - local).exp()
-            })
-            .collect();
+        let white = whiten(&spec);
         // Line value at bin i: the largest whitened value within +-2% (at least +-1 bin),
         // since a multirotor's rotors turn at rates a few per cent apart and each leaves its
         // own line near N f_rot.
@@ -787,6 +757,83 @@ impl Extractor {
     }
 }
 
+/// The spectrum-shape features of the mean excess Doppler spectrum `excess` (shifted:
+/// bin nfft/2 is the body line; `dv` m/s per bin): the 95% extent, the share outside the
+/// body line, the normalised entropy and the symmetry. Left at 0 without excess energy.
+fn spectrum_shape(excess: &[f64], dv: f64, v: &mut [f64]) {
+    let nfft = excess.len();
+    let total: f64 = excess.iter().sum();
+    if total.is_nan() || total <= 0.0 {
+        return;
+    }
+    let vel = |d: usize| (d as f64 - (nfft / 2) as f64) * dv;
+    let body_hw = BODY_HALF_WIDTH_MPS.max(2.0 * dv);
+    let mut by_offset: Vec<(f64, f64)> = (0..nfft).map(|d| (vel(d).abs(), excess[d])).collect();
+    by_offset.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let mut acc = 0.0;
+    let mut e95 = 0.0;
+    for (off, e) in &by_offset {
+        acc += e;
+        if acc >= EXTENT_ENERGY_SHARE * total {
+            e95 = *off;
+            break;
+        }
+    }
+    set(v, FeatureId::MdExtent95, e95);
+    let outside: f64 = (0..nfft)
+        .filter(|&d| vel(d).abs() > body_hw)
+        .map(|d| excess[d])
+        .sum();
+    set(v, FeatureId::OutsideShare, outside / total);
+    let h: f64 = excess
+        .iter()
+        .filter(|&&e| e > 0.0)
+        .map(|&e| {
+            let p = e / total;
+            -p * p.ln()
+        })
+        .sum();
+    set(v, FeatureId::Entropy, h / (nfft as f64).ln());
+    let pos: f64 = (0..nfft)
+        .filter(|&d| vel(d) > body_hw)
+        .map(|d| excess[d])
+        .sum();
+    let neg: f64 = (0..nfft)
+        .filter(|&d| vel(d) < -body_hw)
+        .map(|d| excess[d])
+        .sum();
+    if pos + neg > 0.0 {
+        set(v, FeatureId::Symmetry, (pos - neg) / (pos + neg));
+    }
+}
+
+/// The flash spectrum whitened: each bin divided by the local geometric mean over
+/// [f/1.4, 1.4 f], so the beats between several rotors' flash trains (a red spectrum at
+/// low rates) do not win.
+fn whiten(spec: &[f64]) -> Vec<f64> {
+    let logp: Vec<f64> = spec.iter().map(|p| (p + 1e-30).ln()).collect();
+    let mut pre = vec![0.0f64; logp.len() + 1];
+    for (i, l) in logp.iter().enumerate() {
+        pre[i + 1] = pre[i] + l;
+    }
+    (0..spec.len())
+        .map(|i| {
+            let a = ((i as f64 / 1.4) as usize).max(1);
+            let b = (((i as f64) * 1.4) as usize + 1).min(spec.len());
+            if b <= a + 2 {
+                return 1.0;
+            }
+            let local = (pre[b] - pre[a]) / (b - a) as f64;
+            (logp[i] - local).exp()
+        })
+        .collect()
+}
+
+/// Stores feature `f`; a value that is not finite is stored as 0.
+fn set(v: &mut [f64], f: FeatureId, x: f64) {
+    v[f as usize] = if x.is_finite() { x } else { 0.0 };
+}
+
 /// `x[m]` minus the mean over a centred window of `w` samples (shorter at the ends).
 pub fn subtract_moving_mean(x: &[Complex32], w: usize) -> Vec<Complex32> {
     let n = x.len();
@@ -824,22 +871,9 @@ fn noise_level(p: &[f32]) -> f64 {
     (*q as f64 / std::f64::consts::LN_2).max(1e-30)
 }
 
-fn median(x: &[f64]) -> f64 {
-    if x.is_empty() {
-        return 0.0;
-    }
-    let mut v = x.to_vec();
-    let k = v.len() / 2;
-    let (_, m, _) = v.select_nth_unstable_by(k, |a, b| a.total_cmp(b));
-    *m
-}
-
+/// Sample standard deviation (n - 1), 0 for fewer than two values.
 fn std(x: &[f64]) -> f64 {
-    if x.len() < 2 {
-        return 0.0;
-    }
-    let m = x.iter().sum::<f64>() / x.len() as f64;
-    (x.iter().map(|a| (a - m) * (a - m)).sum::<f64>() / (x.len() - 1) as f64).sqrt()
+    crate::stats::mean_std(x).1
 }
 
 /// (frequency of the largest value, 10 log10(largest / median)) of a band.

@@ -6,4 +6,4 @@ pub mod extract;
 pub mod names;
 
 pub use extract::{Extractor, FeatureSettings, RotorEstimates, TrackKinematics};
-pub use names::{FeatureInfo, F, FEATURES};
+pub use names::{FeatureId, FeatureInfo, FEATURES};

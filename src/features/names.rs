@@ -15,7 +15,7 @@ macro_rules! features {
         #[allow(non_camel_case_types, clippy::upper_case_acronyms)]
         #[derive(Debug, Clone, Copy, PartialEq, Eq)]
         #[repr(usize)]
-        pub enum F { $( $id, )* }
+        pub enum FeatureId { $( $id, )* }
         /// Every feature, in vector order.
         pub const FEATURES: &[FeatureInfo] = &[
             $( FeatureInfo { name: $name, unit: $unit, meaning: $meaning }, )*
@@ -34,7 +34,7 @@ features! {
     AmpStd = "amp_std_db", "dB", "spread (std) of the slow-time amplitude envelope (5 ms smoothing), clutter removed";
     AmpCadenceHz = "amp_cadence_hz", "Hz", "strongest periodicity of the amplitude envelope between 0.5 and 30 Hz";
     AmpCadenceStrength = "amp_cadence_strength_db", "dB", "that peak over the median of the envelope spectrum in the band";
-    MdExtent = "md_extent_mps", "m/s", "largest |velocity offset| from the body where the smoothed long-window Doppler spectrum stands out of the reference gate's noise (5 standard errors, at least 0.1 dB) and lies within 15 dB of the blade level";
+    MdExtent = "md_extent_mps", "m/s", "largest |velocity offset| from the body where the smoothed long-window Doppler spectrum stands out of the reference gate's noise (5 standard errors, at least 0.5 dB) and lies within 15 dB of the blade level";
     MdExtent95 = "md_extent95_mps", "m/s", "|velocity offset| from the body holding 95% of the excess spectral energy";
     OutsideShare = "outside_share", "1", "share of excess spectral energy more than 0.5 m/s (and 2 bins) from the body line";
     Entropy = "spectral_entropy", "1", "entropy of the mean excess Doppler spectrum, normalised to 0..1";

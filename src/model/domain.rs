@@ -14,6 +14,7 @@
 
 use super::dataset::Dataset;
 use crate::error::{Error, Result};
+use crate::stats::quantile_sorted;
 use serde::{Deserialize, Serialize};
 
 /// Lower and upper training quantiles of each feature's domain.
@@ -32,15 +33,6 @@ pub struct Domain {
     pub bounds: Vec<[f64; 2]>,
     /// Step towards uniform per feature outside its bounds, 0..1 (0 = no check).
     pub step: f64,
-}
-
-/// The `q` quantile (0..1) of `v` (sorted ascending, non-empty), linear interpolation
-/// between order statistics (numpy's default "linear" method).
-fn quantile_sorted(v: &[f64], q: f64) -> f64 {
-    let pos = q * (v.len() - 1) as f64;
-    let lo = pos.floor() as usize;
-    let hi = (lo + 1).min(v.len() - 1);
-    v[lo] + (v[hi] - v[lo]) * (pos - lo as f64)
 }
 
 impl Domain {

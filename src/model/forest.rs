@@ -51,6 +51,12 @@ pub enum Bootstrap {
     None,
 }
 
+/// Votes added to every class before calibration, in trees: half a tree's vote, the add-1/2
+/// (Jeffreys-prior, Krichevsky-Trofimov) estimator of a class share from counts (from
+/// memory), so a class no tree voted for keeps a small finite probability; as a vote
+/// fraction, `eps = VOTE_PSEUDOCOUNT / trees`.
+const VOTE_PSEUDOCOUNT: f64 = 0.5;
+
 /// Forest settings; validate with [`ForestParams::check`].
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct ForestParams {
@@ -266,7 +272,7 @@ impl Forest {
             }
         }
         let correct = vs.iter().zip(&ls).filter(|(v, &l)| argmax(v) == l).count();
-        let eps = 0.5 / params.trees as f64;
+        let eps = VOTE_PSEUDOCOUNT / params.trees as f64;
         let calibration = Calibration::fit(&vs, &ls, eps)?;
         let forest = Forest {
             n_features: p,

@@ -230,8 +230,9 @@ pub fn audit(
             }
             // what classify shows: no rotor figures for a track not taken to show a rotor
             let rotor = p.shows_rotor();
-            let feature = |f: crate::features::names::F| t.features.get(f as usize).copied();
-            use crate::features::names::{F, FEATURES};
+            let feature =
+                |f: crate::features::names::FeatureId| t.features.get(f as usize).copied();
+            use crate::features::names::{FeatureId, FEATURES};
             let top_features = ranked
                 .iter()
                 .filter_map(|&(i, _)| {
@@ -260,11 +261,11 @@ pub fn audit(
                         && t.rotor
                             .tip_speed_mps
                             .is_some_and(|v| super::tip_speed_is_bound(v, &a.meta.params)),
-                    blade_flash_strength_db: feature(F::FlashStrength)
+                    blade_flash_strength_db: feature(FeatureId::FlashStrength)
                         .filter(|_| rotor && t.rotor.blade_flash_hz.is_some()),
-                    wingbeat_hz: feature(F::CadenceLowHz).filter(|v| *v > 0.0),
-                    wingbeat_strength_db: feature(F::CadenceLowStrength)
-                        .filter(|_| feature(F::CadenceLowHz).is_some_and(|v| v > 0.0)),
+                    wingbeat_hz: feature(FeatureId::CadenceLowHz).filter(|v| *v > 0.0),
+                    wingbeat_strength_db: feature(FeatureId::CadenceLowStrength)
+                        .filter(|_| feature(FeatureId::CadenceLowHz).is_some_and(|v| v > 0.0)),
                     notch_share: t.kinematics.notch_share,
                     top_features,
                     truth: ann.map(|x| x.label.clone()),

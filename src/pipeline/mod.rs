@@ -22,6 +22,7 @@ use crate::detect::Track;
 use crate::error::Result;
 use crate::features::{Extractor, FeatureSettings, RotorEstimates, TrackKinematics};
 use crate::recording::RecordingMeta;
+use crate::stats::median;
 
 /// Everything that turns a recording into feature vectors.
 #[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
@@ -94,26 +95,9 @@ fn slope(t: &[f64], y: &[f64]) -> f64 {
     }
 }
 
+/// Sample standard deviation (n - 1), 0 for fewer than two values.
 fn std(x: &[f64]) -> f64 {
-    if x.len() < 2 {
-        return 0.0;
-    }
-    let m = x.iter().sum::<f64>() / x.len() as f64;
-    (x.iter().map(|a| (a - m) * (a - m)).sum::<f64>() / (x.len() - 1) as f64).sqrt()
-}
-
-fn median(x: &[f64]) -> f64 {
-    if x.is_empty() {
-        return 0.0;
-    }
-    let mut v = x.to_vec();
-    v.sort_by(|a, b| a.total_cmp(b));
-    let n = v.len();
-    if n % 2 == 1 {
-        v[n / 2]
-    } else {
-        0.5 * (v[n / 2 - 1] + v[n / 2])
-    }
+    crate::stats::mean_std(x).1
 }
 
 /// Radial speed under which a track counts as hovering, m/s (docs/output-format.md): the

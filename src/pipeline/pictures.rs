@@ -45,13 +45,10 @@ fn db(x: f32) -> f32 {
     10.0 * x.max(1e-30).log10()
 }
 
+/// The high median (the upper middle value for an even count; 0 for none): the picture
+/// floors have always used it ([`crate::stats::median_high_f32_in_place`]).
 fn median(mut v: Vec<f32>) -> f32 {
-    if v.is_empty() {
-        return 0.0;
-    }
-    let k = v.len() / 2;
-    let (_, m, _) = v.select_nth_unstable_by(k, |a, b| a.total_cmp(b));
-    *m
+    crate::stats::median_high_f32_in_place(&mut v)
 }
 
 /// A recording's base name (no directory, no `.sigmf-meta`).

@@ -3,13 +3,24 @@
 
 use serde::{Deserialize, Serialize};
 
-use crate::detect::{CfarKind, CfarParams, ClutterMapParams, MicroDopplerParams, TrackerParams};
+use crate::detect::{CfarParams, ClutterMapParams, MicroDopplerParams, TrackerParams};
 use crate::error::{ensure, Result};
 use crate::frontend::{Canceller, Window};
 
 /// Longest CPI, chirps (a Doppler FFT of 65536 bins: far beyond any useful dwell, and a
 /// cap on the memory of one map).
 pub const MAX_CPI_CHIRPS: usize = 1 << 16;
+
+/// Shortest automatic CPI, chirps: the 256-chirp CPI the project's SNRs are referred to
+/// (the "clear" SNR of the issues, `fast_band_snr_db`), so a slow radar still integrates
+/// that many chirps. A project choice.
+pub const AUTO_CPI_MIN_CHIRPS: usize = 256;
+
+/// Longest automatic CPI, chirps. A project choice, not an outside figure: at the default
+/// 25.6 ms it binds only above about 116 kHz chirp rate (beyond every demo radar, 2-30
+/// kHz), and keeps one automatic map to 4096 x range cells (16 MiB of complex `f32` at
+/// 512 cells) per path. `--cpi` may ask for more, up to [`MAX_CPI_CHIRPS`].
+pub const AUTO_CPI_MAX_CHIRPS: usize = 4096;
 
 /// Everything that shapes how a recording becomes tracks. Keys missing from a stored copy
 /// (a model file of an earlier version) take their defaults.
@@ -88,14 +99,7 @@ impl Default for DetectSettings {
             range_window: Window::Hann,
             doppler_window: Window::Hann,
             notch_mps: 0.6,
-            cfar: CfarParams {
-                kind: CfarKind::CellAveraging,
-                guard_range: 1,
-                guard_doppler: 2,
-                train_range: 4,
-                train_doppler: 8,
-                pfa: 1e-6,
-            },
+            cfar: CfarParams::default(),
             microdoppler: MicroDopplerParams::default(),
             noise_half_window: 8,
             noise_smoothing: 0.25,
@@ -118,9 +122,11 @@ impl DetectSettings {
         if self.cpi_chirps > 0 {
             return self.cpi_chirps;
         }
-        let n = (self.cpi_target_s / t_s).max(1.0);
-        let p = 2f64.powf(n.log2().round()) as usize;
-        p.clamp(256, 4096)
+        crate::stats::nearest_power_of_two(
+            self.cpi_target_s / t_s,
+            AUTO_CPI_MIN_CHIRPS,
+            AUTO_CPI_MAX_CHIRPS,
+        )
     }
     /// Chirps from one CPI to the next for a CPI of `m` chirps.
     pub fn hop_for(&self, m: usize) -> usize {

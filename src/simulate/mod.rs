@@ -125,19 +125,6 @@ pub fn simulate(
     Ok(annotations)
 }
 
-fn median(v: &mut [f64]) -> f64 {
-    if v.is_empty() {
-        return 0.0;
-    }
-    v.sort_by(|a, b| a.total_cmp(b));
-    let k = v.len() / 2;
-    if v.len() % 2 == 1 {
-        v[k]
-    } else {
-        0.5 * (v[k - 1] + v[k])
-    }
-}
-
 /// The annotation of each annotated object: the longest stretch of whole chirps while it
 /// is present and inside the range coverage; range window over it plus the object's
 /// extent; truth with the median radial velocity and hovering (median |v_r| < 0.5 m/s).
@@ -198,9 +185,9 @@ fn annotate(
             ),
             None => (rmin - ext, rmax + ext),
         };
-        let r_med = median(&mut rs);
-        let v_med = median(&mut vs);
-        let s_med = median(&mut speeds);
+        let r_med = crate::stats::median_in_place(&mut rs);
+        let v_med = crate::stats::median_in_place(&mut vs);
+        let s_med = crate::stats::median_in_place(&mut speeds);
         let mid_pos = src
             .kinematics(((m0 + m1) / 2) as f64 * t_chirp)
             .map_or([r_med, 0.0, 0.0], |k| k.0);
