@@ -196,7 +196,7 @@ fn bad_params_and_rows_are_refused() {
                 trees: 0,
                 ..small(0)
             },
-            "trees = 0",
+            "--trees 0: expected 1 to 10000 trees",
         ),
         (
             ForestParams {
