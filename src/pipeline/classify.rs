@@ -7,11 +7,14 @@ use std::collections::BTreeMap;
 use serde::Serialize;
 
 use super::{match_tracks, PipelineSettings, RecordingAnalysis};
+use crate::cli_values::{parse_fraction, parse_probability};
 use crate::error::{Error, Result};
 use crate::features::names;
 use crate::model::{
     Dataset, FalseAlarms, Forest, ForestParams, ModelFile, RadarCrossValidation, Scores,
 };
+pub use crate::report::evaluate::{Evaluation, ModelExpectation};
+pub use crate::report::train::TrainReport;
 
 /// The label of tracks whose confidence is under `--min-confidence`.
 pub const UNKNOWN: &str = "unknown";
@@ -149,43 +152,40 @@ fn leave_one_radar_out(
 }
 
 /// Options of `train`.
-#[derive(Debug, Clone)]
+#[derive(clap::Args, Debug, Clone)]
 pub struct TrainOptions {
+    /// Share of the tracks (by whole recordings) held out for scoring.
+    #[arg(long, default_value_t = 0.3, value_parser = parse_fraction)]
     pub holdout_fraction: f64,
+    /// Seed of the split and of the ensemble.
+    #[arg(long, default_value_t = 7)]
     pub seed: u64,
+    /// Trees in the ensemble.
+    #[arg(long, default_value_t = 200)]
     pub trees: usize,
+    /// Train on unmatched tracks too, with this label.
+    #[arg(long)]
     pub unlabelled_as: Option<String>,
     /// Also score a grouped k-fold cross-validation by recording (0 = off).
+    #[arg(long, default_value_t = 5)]
     pub folds: usize,
-    /// Step towards uniform per feature outside the training domain (0 = no domain
-    /// check), see [`crate::model::Domain`].
+    /// Step towards uniform probabilities per feature outside the training domain
+    /// (0 = no domain check)
+    #[arg(long, default_value_t = crate::model::domain::DEFAULT_STEP, value_parser = parse_probability)]
     pub domain_step: f64,
 }
 
-/// What `train` measured and made.
-#[derive(Debug, Clone, Serialize)]
-pub struct TrainReport {
-    pub classes: Vec<String>,
-    pub train_tracks: usize,
-    pub test_tracks: usize,
-    pub train_recordings: usize,
-    pub test_recordings: Vec<String>,
-    pub tracks_unmatched: usize,
-    /// Track-level scores on the held-out recordings.
-    pub heldout: Scores,
-    /// Feature importances (mean decrease in impurity), largest first.
-    pub importances: Vec<(String, f64)>,
-    pub oob_accuracy: f64,
-    /// Track-level scores of a grouped k-fold cross-validation (every recording held out
-    /// once), when asked for.
-    pub cross_validated: Option<Scores>,
-    /// Folds of that cross-validation: `--folds`, capped to the labelled recordings.
-    pub folds: usize,
-    /// Leave-one-radar-out cross-validation (with two radars or more).
-    pub radar_cross_validated: Option<RadarCrossValidation>,
-    /// Notes for stderr (e.g. folds capped to the recordings).
-    #[serde(skip)]
-    pub notes: Vec<String>,
+impl Default for TrainOptions {
+    fn default() -> Self {
+        TrainOptions {
+            holdout_fraction: 0.3,
+            seed: 7,
+            trees: 200,
+            unlabelled_as: None,
+            folds: 5,
+            domain_step: crate::model::domain::DEFAULT_STEP,
+        }
+    }
 }
 
 /// Trains on labelled analyses: scores a forest fitted on the training recordings on the
@@ -439,27 +439,6 @@ pub struct Prediction {
     pub probabilities: BTreeMap<String, f64>,
 }
 
-/// `evaluate`'s result (the documented `evaluate --format json`), plus track-level scores
-/// and the false-alarm report.
-#[derive(Debug, Clone, Serialize)]
-pub struct Evaluation {
-    #[serde(flatten)]
-    pub scores: Scores,
-    pub targets: usize,
-    pub targets_detected: usize,
-    pub tracks_unmatched: usize,
-    /// Scores over tracks (each track one sample): the matched ones, and the false tracks
-    /// with their background class.
-    pub track_level: Option<Scores>,
-    /// False tracks, over the recordings where a track matching no annotation is known to
-    /// be background; `None` when there is none.
-    pub false_alarms: Option<FalseAlarms>,
-    /// Target-level scores per radar (`radar_key`), with their calibration (ECE).
-    pub per_radar: BTreeMap<String, Scores>,
-    /// The model file's own cross-validated figures (what it promises), when stored.
-    pub model_expectation: Option<ModelExpectation>,
-}
-
 /// Scores labelled recordings: each annotation is a target, detected when a track matches
 /// it, predicted as the duration-weighted mean of its tracks' probabilities. A track that
 /// matches no annotation, in a recording whose labels are complete (or in any with
@@ -471,6 +450,13 @@ pub fn evaluate(
     min_confidence: f64,
     unlabelled_as: Option<&str>,
 ) -> Result<Evaluation> {
+    if unlabelled_as.is_none()
+        && !analyses
+            .iter()
+            .any(|a| !a.meta.annotations.is_empty() || a.meta.labels_complete)
+    {
+        return Err(Error::Invalid("no labelled targets to score: the recordings carry no annotations (and none says rotorsift:labels_complete)".into()));
+    }
     let model_classes = &clf.model.class_names;
     let mut classes: Vec<String> = model_classes.clone();
     for a in analyses {
@@ -626,21 +612,6 @@ fn expectation(training: &serde_json::Value) -> Option<ModelExpectation> {
         grouped_kfold_accuracy: fig("cross_validated", "accuracy"),
         grouped_kfold_ece: fig("cross_validated", "ece"),
     })
-}
-
-/// The model's own cross-validated figures, printed by `evaluate` beside its result.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct ModelExpectation {
-    /// Track accuracy of the leave-one-radar-out cross-validation (an unseen radar).
-    pub leave_one_radar_out_accuracy: f64,
-    /// Its expected calibration error.
-    pub leave_one_radar_out_ece: Option<f64>,
-    /// Radars the model was trained on.
-    pub radars: usize,
-    /// Track accuracy of the grouped k-fold by recording (a training radar).
-    pub grouped_kfold_accuracy: Option<f64>,
-    /// Its expected calibration error.
-    pub grouped_kfold_ece: Option<f64>,
 }
 
 #[derive(Debug, Default)]

@@ -51,3 +51,15 @@ pub fn to_csv(rows: &[FeatureRow]) -> String {
     }
     out
 }
+
+/// The summary line `features` prints on stderr.
+pub fn summary(tracks: usize, recordings: usize, out: &std::path::Path) -> String {
+    format!(
+        "rotorsift: {} track{} from {} recording{} written to {}",
+        tracks,
+        if tracks == 1 { "" } else { "s" },
+        recordings,
+        if recordings == 1 { "" } else { "s" },
+        out.display()
+    )
+}
