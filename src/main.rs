@@ -80,7 +80,8 @@ enum Command {
     /// Train the tree ensemble on labelled tracks; holds out whole recordings, prints the
     /// held-out confusion matrix, writes the model.
     Train {
-        /// Labelled recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
+        /// Labelled recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories;
+        /// or feature tables (FILE.csv written by `rotorsift features`).
         #[arg(required = true)]
         inputs: Vec<PathBuf>,
         /// The model file to write (JSON).
@@ -109,7 +110,8 @@ enum Command {
     },
     /// Classify labelled recordings and score them against their annotations.
     Evaluate {
-        /// Labelled recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
+        /// Labelled recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories;
+        /// or feature tables (FILE.csv written by `rotorsift features`).
         #[arg(required = true)]
         inputs: Vec<PathBuf>,
         #[command(flatten)]
@@ -184,6 +186,21 @@ impl Ctx {
     ) -> Result<(Vec<RecordingAnalysis>, bool)> {
         let (out, outcome) =
             pipeline::analyse_inputs(inputs, channel, settings, true, self.batch, &mut |e| {
+                report_bad(e)
+            })?;
+        report_summary(&outcome);
+        Ok((out, outcome.any_failed()))
+    }
+
+    /// Every input as feature tables: recordings analysed, `.csv` tables read.
+    fn gather(
+        &self,
+        inputs: &[PathBuf],
+        channel: usize,
+        settings: &PipelineSettings,
+    ) -> Result<(Vec<pipeline::tables::RecordingTable>, bool)> {
+        let (out, outcome) =
+            pipeline::tables::gather(inputs, channel, settings, self.batch, &mut |e| {
                 report_bad(e)
             })?;
         report_summary(&outcome);
@@ -296,12 +313,17 @@ fn run(cli: Cli) -> Result<ExitCode> {
                     out.display()
                 );
             }
-            let rows = pipeline::output::feature_rows(&analyses);
-            let text = report::features_csv::to_csv(&rows);
+            let fp = pipeline::tables::fingerprint(&settings, process.recording.channel);
+            let tables: Vec<_> = analyses
+                .iter()
+                .map(|a| pipeline::tables::of_analysis(a, &fp))
+                .collect();
+            let text = report::features_csv::to_csv(&tables);
             rotorsift::recording::write_atomic(&out, text.as_bytes())?;
+            let tracks = tables.iter().map(|t| t.tracks.len()).sum();
             eprintln!(
                 "{}",
-                report::features_csv::summary(rows.len(), analyses.len(), &out)
+                report::features_csv::summary(tracks, tables.len(), &out)
             );
             Ok(exit_code(failed))
         }
@@ -313,8 +335,8 @@ fn run(cli: Cli) -> Result<ExitCode> {
             format,
         } => {
             let settings = process.settings()?;
-            let (analyses, failed) = ctx.analyse(&inputs, process.recording.channel, &settings)?;
-            let (file, rep) = pipeline::classify::train(&analyses, &settings, &opts)?;
+            let (tables, failed) = ctx.gather(&inputs, process.recording.channel, &settings)?;
+            let (file, rep) = pipeline::classify::train(&tables, &settings, &opts)?;
             for note in &rep.notes {
                 eprintln!("rotorsift: note: {note}");
             }
@@ -342,9 +364,9 @@ fn run(cli: Cli) -> Result<ExitCode> {
             format,
         } => {
             let clf = model.load()?;
-            let (analyses, failed) = ctx.analyse(&inputs, recording.channel, &clf.settings)?;
+            let (tables, failed) = ctx.gather(&inputs, recording.channel, &clf.settings)?;
             let ev = pipeline::classify::evaluate(
-                &analyses,
+                &tables,
                 &clf,
                 model.min_confidence,
                 unlabelled_as.as_deref(),

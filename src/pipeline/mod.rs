@@ -10,6 +10,7 @@ pub mod output;
 pub mod pictures;
 pub mod settings;
 pub mod signals;
+pub mod tables;
 pub mod tracks;
 
 use serde::{Deserialize, Serialize};

@@ -144,29 +144,3 @@ pub fn classify_report(
         recordings,
     })
 }
-
-/// Feature rows of every track, with the label of the annotation it matches (the rows of
-/// `rotorsift features`).
-pub fn feature_rows(
-    analyses: &[RecordingAnalysis],
-) -> Vec<crate::report::features_csv::FeatureRow> {
-    let mut rows = Vec::new();
-    for a in analyses {
-        let spans: Vec<_> = a.tracks.iter().map(|t| t.span()).collect();
-        let m = super::match_tracks(&spans, &a.meta.annotations, &a.meta.params);
-        for (t, mi) in a.tracks.iter().zip(m) {
-            let ann = mi.map(|i| &a.meta.annotations[i]);
-            rows.push(crate::report::features_csv::FeatureRow {
-                recording: a.meta.meta_path.display().to_string(),
-                track: t.track.id,
-                start_s: t.start_s,
-                end_s: t.end_s,
-                range_m: t.track.median_range_m(),
-                target_id: ann.and_then(|x| x.target_id.clone()),
-                label: ann.map(|x| x.label.clone()),
-                features: t.features.clone(),
-            });
-        }
-    }
-    rows
-}
