@@ -8,8 +8,8 @@ use anyhow::{Context, Result};
 use clap::{Parser, Subcommand};
 
 use rotorsift::cli_values::*;
-use rotorsift::pipeline::options::{DetectOptions, ModelOptions, RecordingOptions};
-use rotorsift::pipeline::{self, BatchOptions, PipelineSettings, RecordingAnalysis};
+use rotorsift::pipeline::options::*;
+use rotorsift::pipeline::{self, BatchOptions, PipelineSettings};
 use rotorsift::recording::resolve_inputs;
 use rotorsift::report::{self, Format};
 
@@ -33,35 +33,21 @@ struct Cli {
 enum Command {
     /// Show what each recording holds: radar settings, derived figures, duration, labels.
     Info {
-        /// Recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
-        #[arg(required = true)]
-        inputs: Vec<PathBuf>,
-        /// Output format.
-        #[arg(long, value_enum, default_value_t = Format::Table)]
-        format: Format,
+        #[command(flatten)]
+        inputs: Inputs,
+        #[command(flatten)]
+        format: FormatOption,
     },
     /// Write labelled recordings from a scene description (TOML).
-    Simulate {
-        /// The scene file (format: labelled-demo/scenes/EXAMPLE.toml).
-        #[arg(long)]
-        scene: PathBuf,
-        /// Directory for the recordings (created if missing).
-        #[arg(long)]
-        out: PathBuf,
-        /// Random seed (overrides the scene's seeds).
-        #[arg(long)]
-        seed: Option<u64>,
-    },
+    Simulate(SimulateOptions),
     /// Range processing, clutter cancelling, CFAR and tracking; prints the tracks.
     Detect {
-        /// Recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
-        #[arg(required = true)]
-        inputs: Vec<PathBuf>,
+        #[command(flatten)]
+        inputs: Inputs,
         #[command(flatten)]
         process: DetectOptions,
-        /// Output format.
-        #[arg(long, value_enum, default_value_t = Format::Table)]
-        format: Format,
+        #[command(flatten)]
+        format: FormatOption,
     },
     /// One row per track: identifiers, matched label (empty if none), every feature.
     Features {
@@ -80,10 +66,8 @@ enum Command {
     /// Train the tree ensemble on labelled tracks; holds out whole recordings, prints the
     /// held-out confusion matrix, writes the model.
     Train {
-        /// Labelled recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories;
-        /// or feature tables (FILE.csv written by `rotorsift features`).
-        #[arg(required = true)]
-        inputs: Vec<PathBuf>,
+        #[command(flatten)]
+        inputs: LabelledInputs,
         /// The model file to write (JSON).
         #[arg(long)]
         model: PathBuf,
@@ -97,23 +81,19 @@ enum Command {
     },
     /// Label every track, with a confidence (built-in model unless --model).
     Classify {
-        /// Recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
-        #[arg(required = true)]
-        inputs: Vec<PathBuf>,
+        #[command(flatten)]
+        inputs: Inputs,
         #[command(flatten)]
         model: ModelOptions,
         #[command(flatten)]
         recording: RecordingOptions,
-        /// Output format.
-        #[arg(long, value_enum, default_value_t = Format::Table)]
-        format: Format,
+        #[command(flatten)]
+        format: FormatOption,
     },
     /// Classify labelled recordings and score them against their annotations.
     Evaluate {
-        /// Labelled recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories;
-        /// or feature tables (FILE.csv written by `rotorsift features`).
-        #[arg(required = true)]
-        inputs: Vec<PathBuf>,
+        #[command(flatten)]
+        inputs: LabelledInputs,
         #[command(flatten)]
         model: ModelOptions,
         #[command(flatten)]
@@ -122,16 +102,14 @@ enum Command {
         /// class (by default only in recordings with rotorsift:labels_complete, as clutter).
         #[arg(long)]
         unlabelled_as: Option<String>,
-        /// Output format.
-        #[arg(long, value_enum, default_value_t = Format::Table)]
-        format: Format,
+        #[command(flatten)]
+        format: FormatOption,
     },
     /// Write DIR/index.html: every misclassified, low-confidence or bird-vs-rotorcraft
     /// doubtful track, with its spectrogram, cadence diagram and range-Doppler map.
     Audit {
-        /// Recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
-        #[arg(required = true)]
-        inputs: Vec<PathBuf>,
+        #[command(flatten)]
+        inputs: Inputs,
         #[command(flatten)]
         model: ModelOptions,
         #[command(flatten)]
@@ -144,20 +122,7 @@ enum Command {
     },
     /// Make a rotorsift recording from a plain SigMF recording or a raw IQ file, with the
     /// radar's settings from a TOML file (labelled-demo/radars/ has one per demo radar).
-    Adopt {
-        /// A SigMF recording (NAME.sigmf-meta, NAME.sigmf-data or NAME) or a raw IQ file.
-        input: PathBuf,
-        /// The radar file: the rotorsift keys without their prefix (and, for a raw IQ
-        /// file, datatype, sample_rate_hz, carrier_hz, num_channels).
-        #[arg(long)]
-        radar: PathBuf,
-        /// Directory for NAME.sigmf-meta and NAME.sigmf-data (created if missing).
-        #[arg(long)]
-        out: PathBuf,
-        /// Base name of the new recording (default: the input's).
-        #[arg(long)]
-        name: Option<String>,
-    },
+    Adopt(AdoptOptions),
     /// Draw one picture as PNG: a CPI's range-Doppler map, or a track's spectrogram,
     /// cepstrogram or cadence-velocity diagram.
     Plot {
@@ -170,53 +135,6 @@ enum Command {
     },
 }
 
-/// The batch loop's manners and its reporting of bad files.
-struct Ctx {
-    batch: BatchOptions,
-}
-
-impl Ctx {
-    /// Every input analysed (bad inputs reported on stderr and skipped), and whether any
-    /// failed.
-    fn analyse(
-        &self,
-        inputs: &[PathBuf],
-        channel: usize,
-        settings: &PipelineSettings,
-    ) -> Result<(Vec<RecordingAnalysis>, bool)> {
-        let (out, outcome) =
-            pipeline::analyse_inputs(inputs, channel, settings, true, self.batch, &mut |e| {
-                report_bad(e)
-            })?;
-        report_summary(&outcome);
-        Ok((out, outcome.any_failed()))
-    }
-
-    /// Every input as feature tables: recordings analysed, `.csv` tables read.
-    fn gather(
-        &self,
-        inputs: &[PathBuf],
-        channel: usize,
-        settings: &PipelineSettings,
-    ) -> Result<(Vec<pipeline::tables::RecordingTable>, bool)> {
-        let (out, outcome) =
-            pipeline::tables::gather(inputs, channel, settings, self.batch, &mut |e| {
-                report_bad(e)
-            })?;
-        report_summary(&outcome);
-        Ok((out, outcome.any_failed()))
-    }
-}
-
-fn is_broken_pipe(e: &anyhow::Error) -> bool {
-    e.chain().any(|c| {
-        c.downcast_ref::<std::io::Error>()
-            .is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe)
-            || matches!(c.downcast_ref::<rotorsift::Error>(),
-                Some(rotorsift::Error::Io { err, .. }) if err.kind() == std::io::ErrorKind::BrokenPipe)
-    })
-}
-
 /// Writes `text` to stdout.
 fn emit(text: &str) -> Result<()> {
     let mut out = std::io::stdout().lock();
@@ -225,55 +143,47 @@ fn emit(text: &str) -> Result<()> {
     Ok(())
 }
 
-/// The batch's summary line on stderr, when some of several recordings failed.
-fn report_summary(outcome: &pipeline::BatchOutcome) {
+/// Reports one bad file of a batch on stderr; the batch goes on.
+fn report_bad(e: &rotorsift::Error) {
+    eprintln!("rotorsift: error: {e}");
+}
+
+/// Prints the batch's summary line on stderr (when some of several recordings failed);
+/// returns the results and whether any input failed.
+fn summed<T>((out, outcome): (T, pipeline::BatchOutcome)) -> (T, bool) {
     if let Some(line) = outcome.summary() {
         eprintln!("{line}");
     }
-}
-
-/// Reports one bad file of a batch on stderr; the batch goes on.
-fn report_bad(e: &dyn std::fmt::Display) {
-    eprintln!("rotorsift: error: {e}");
+    (out, outcome.any_failed())
 }
 
 fn exit_code(failed: bool) -> ExitCode {
     ExitCode::from(u8::from(failed))
 }
 
-fn print_tracks(report: &report::tracks::TrackReport, format: Format) -> Result<()> {
-    let text = match format {
-        Format::Json => serde_json::to_string_pretty(report).context("encoding JSON")? + "\n",
-        Format::Table => report::tracks::render_table(report),
-    };
-    emit(&text)
-}
-
 fn run(cli: Cli) -> Result<ExitCode> {
-    let ctx = Ctx {
-        batch: BatchOptions {
-            jobs: cli.jobs,
-            quiet: cli.quiet,
-        },
+    let batch = BatchOptions {
+        jobs: cli.jobs,
+        quiet: cli.quiet,
+    };
+    let analyse = |inputs: &[PathBuf], channel, settings: &PipelineSettings| {
+        let r = pipeline::analyse_inputs(inputs, channel, settings, true, batch, &mut report_bad);
+        r.map(summed)
+    };
+    let gather = |inputs: &[PathBuf], channel, settings: &PipelineSettings| {
+        pipeline::tables::gather(inputs, channel, settings, batch, &mut report_bad).map(summed)
     };
     match cli.command {
         Command::Info { inputs, format } => {
-            let paths = resolve_inputs(&inputs)?;
-            let (records, outcome) =
-                pipeline::run_batch(&paths, report::info::InfoRecord::read, &mut |e| {
-                    report_bad(e)
-                });
-            report_summary(&outcome);
-            emit(&report::info::render(&records, format)?)?;
-            Ok(exit_code(outcome.any_failed()))
+            let paths = resolve_inputs(&inputs.inputs)?;
+            let read = report::info::InfoRecord::read;
+            let (records, failed) = summed(pipeline::run_batch(&paths, read, &mut report_bad));
+            emit(&report::info::render(&records, format.format)?)?;
+            Ok(exit_code(failed))
         }
-        Command::Adopt {
-            input,
-            radar,
-            out,
-            name,
-        } => {
-            let a = rotorsift::recording::adopt::adopt(&input, &radar, &out, name.as_deref())?;
+        Command::Adopt(o) => {
+            let name = o.name.as_deref();
+            let a = rotorsift::recording::adopt::adopt(&o.input, &o.radar, &o.out, name)?;
             let how = if a.linked { "linked as" } else { "copied to" };
             eprintln!(
                 "rotorsift: {} chirps {how} {}",
@@ -283,9 +193,10 @@ fn run(cli: Cli) -> Result<ExitCode> {
             emit(&format!("{}\n", a.meta_path.display()))?;
             Ok(ExitCode::SUCCESS)
         }
-        Command::Simulate { scene, out, seed } => {
-            std::fs::create_dir_all(&out).with_context(|| format!("creating {}", out.display()))?;
-            let metas = rotorsift::simulate::simulate_scene_file(&scene, &out, seed)?;
+        Command::Simulate(o) => {
+            let out = &o.out;
+            std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
+            let metas = rotorsift::simulate::simulate_scene_file(&o.scene, out, o.seed)?;
             emit(
                 &metas
                     .iter()
@@ -305,26 +216,10 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 return Ok(ExitCode::SUCCESS);
             }
             let out = out.context("--out FILE.csv is required")?;
-            let settings = process.settings()?;
-            let (analyses, failed) = ctx.analyse(&inputs, process.recording.channel, &settings)?;
-            if analyses.is_empty() {
-                anyhow::bail!(
-                    "no input recording could be read; {} left as it was",
-                    out.display()
-                );
-            }
-            let fp = pipeline::tables::fingerprint(&settings, process.recording.channel);
-            let tables: Vec<_> = analyses
-                .iter()
-                .map(|a| pipeline::tables::of_analysis(a, &fp))
-                .collect();
-            let text = report::features_csv::to_csv(&tables);
-            rotorsift::recording::write_atomic(&out, text.as_bytes())?;
-            let tracks = tables.iter().map(|t| t.tracks.len()).sum();
-            eprintln!(
-                "{}",
-                report::features_csv::summary(tracks, tables.len(), &out)
-            );
+            let (settings, channel) = (process.settings()?, process.recording.channel);
+            let (analyses, failed) = analyse(&inputs, channel, &settings)?;
+            let line = pipeline::tables::write_features(&analyses, &settings, channel, &out)?;
+            eprintln!("{line}");
             Ok(exit_code(failed))
         }
         Command::Train {
@@ -335,7 +230,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
             format,
         } => {
             let settings = process.settings()?;
-            let (tables, failed) = ctx.gather(&inputs, process.recording.channel, &settings)?;
+            let (tables, failed) = gather(&inputs.inputs, process.recording.channel, &settings)?;
             let (file, rep) = pipeline::classify::train(&tables, &settings, &opts)?;
             for note in &rep.notes {
                 eprintln!("rotorsift: note: {note}");
@@ -351,9 +246,9 @@ fn run(cli: Cli) -> Result<ExitCode> {
             format,
         } => {
             let clf = model.load()?;
-            let (analyses, failed) = ctx.analyse(&inputs, recording.channel, &clf.settings)?;
+            let (analyses, failed) = analyse(&inputs.inputs, recording.channel, &clf.settings)?;
             let report = pipeline::output::classify_report(&analyses, &clf, model.min_confidence)?;
-            print_tracks(&report, format)?;
+            emit(&report::tracks::render(&report, format.format)?)?;
             Ok(exit_code(failed))
         }
         Command::Evaluate {
@@ -364,14 +259,10 @@ fn run(cli: Cli) -> Result<ExitCode> {
             format,
         } => {
             let clf = model.load()?;
-            let (tables, failed) = ctx.gather(&inputs, recording.channel, &clf.settings)?;
-            let ev = pipeline::classify::evaluate(
-                &tables,
-                &clf,
-                model.min_confidence,
-                unlabelled_as.as_deref(),
-            )?;
-            emit(&report::evaluate::to_text(&ev, format, &clf.name)?)?;
+            let (tables, failed) = gather(&inputs.inputs, recording.channel, &clf.settings)?;
+            let (min, unlabelled) = (model.min_confidence, unlabelled_as.as_deref());
+            let ev = pipeline::classify::evaluate(&tables, &clf, min, unlabelled)?;
+            emit(&report::evaluate::to_text(&ev, format.format, &clf.name)?)?;
             Ok(exit_code(failed))
         }
         Command::Audit {
@@ -383,17 +274,11 @@ fn run(cli: Cli) -> Result<ExitCode> {
         } => {
             let params = select.params(model.min_confidence)?;
             let clf = model.load()?;
-            let (analyses, failed) = ctx.analyse(&inputs, recording.channel, &clf.settings)?;
-            std::fs::create_dir_all(&out).with_context(|| format!("creating {}", out.display()))?;
-            let a = pipeline::audit::audit(&analyses, &clf, &params, recording.channel, &out)?;
-            let page = report::audit::to_html(&a, rotorsift::VERSION);
-            let index = out.join("index.html");
-            rotorsift::recording::write_atomic(&index, page.as_bytes())?;
+            let (analyses, failed) = analyse(&inputs.inputs, recording.channel, &clf.settings)?;
+            let ch = recording.channel;
             eprintln!(
-                "rotorsift: {} of {} tracks listed in {}",
-                a.entries.len(),
-                a.tracks,
-                index.display()
+                "{}",
+                pipeline::audit::write_page(&analyses, &clf, &params, ch, &out)?
             );
             Ok(exit_code(failed))
         }
@@ -402,8 +287,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
             picture,
             process,
         } => {
-            let settings = process.settings()?;
-            let channel = process.recording.channel;
+            let (settings, channel) = (process.settings()?, process.recording.channel);
             let p = pipeline::pictures::plot_file(&input, channel, &settings, &picture)?;
             let note = if p.unlabelled {
                 " (track unlabelled: the detection options differ from the built-in model's)"
@@ -420,8 +304,10 @@ fn run(cli: Cli) -> Result<ExitCode> {
             format,
         } => {
             let settings = process.settings()?;
-            let (analyses, failed) = ctx.analyse(&inputs, process.recording.channel, &settings)?;
-            print_tracks(&pipeline::output::detect_report(&analyses), format)?;
+            let channel = process.recording.channel;
+            let (analyses, failed) = analyse(&inputs.inputs, channel, &settings)?;
+            let report = pipeline::output::detect_report(&analyses);
+            emit(&report::tracks::render(&report, format.format)?)?;
             Ok(exit_code(failed))
         }
     }
@@ -447,7 +333,7 @@ fn main() -> ExitCode {
     };
     match run(cli) {
         Ok(code) => code,
-        Err(e) if is_broken_pipe(&e) => ExitCode::SUCCESS,
+        Err(e) if e.chain().any(rotorsift::error::is_broken_pipe) => ExitCode::SUCCESS,
         Err(e) => {
             eprintln!("rotorsift: error: {e:#}");
             ExitCode::from(1)

@@ -326,3 +326,26 @@ pub fn audit(
     out.entries = picked.into_iter().map(|(_, _, e)| e).collect();
     Ok(out)
 }
+
+/// `rotorsift audit`: runs the audit into `dir` (created if missing), writes
+/// `dir/index.html` atomically and returns the summary line for stderr.
+pub fn write_page(
+    analyses: &[RecordingAnalysis],
+    clf: &Classifier,
+    params: &AuditParams,
+    channel: usize,
+    dir: &Path,
+) -> Result<String> {
+    std::fs::create_dir_all(dir)
+        .map_err(|e| crate::Error::Invalid(format!("creating {}: {e}", dir.display())))?;
+    let a = audit(analyses, clf, params, channel, dir)?;
+    let index = dir.join("index.html");
+    let page = crate::report::audit::to_html(&a, crate::VERSION);
+    crate::atomic::write_atomic(&index, page.as_bytes())?;
+    Ok(format!(
+        "rotorsift: {} of {} tracks listed in {}",
+        a.entries.len(),
+        a.tracks,
+        index.display()
+    ))
+}

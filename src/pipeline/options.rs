@@ -93,3 +93,59 @@ impl ModelOptions {
         Classifier::load(self.model.as_deref())
     }
 }
+
+/// The recordings a command reads.
+#[derive(clap::Args, Debug, Clone, PartialEq)]
+pub struct Inputs {
+    /// Recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories.
+    #[arg(required = true)]
+    pub inputs: Vec<PathBuf>,
+}
+
+/// The labelled inputs `train` and `evaluate` read: recordings or feature tables.
+#[derive(clap::Args, Debug, Clone, PartialEq)]
+pub struct LabelledInputs {
+    /// Labelled recordings: NAME.sigmf-meta, NAME.sigmf-data, NAME, or directories;
+    /// or feature tables (FILE.csv written by `rotorsift features`).
+    #[arg(required = true)]
+    pub inputs: Vec<PathBuf>,
+}
+
+/// How results are printed.
+#[derive(clap::Args, Debug, Clone, Copy, PartialEq)]
+pub struct FormatOption {
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = crate::report::Format::Table)]
+    pub format: crate::report::Format,
+}
+
+/// `rotorsift simulate`: the scene, where its recordings go, the seed.
+#[derive(clap::Args, Debug, Clone, PartialEq)]
+pub struct SimulateOptions {
+    /// The scene file (format: labelled-demo/scenes/EXAMPLE.toml).
+    #[arg(long)]
+    pub scene: PathBuf,
+    /// Directory for the recordings (created if missing).
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Random seed (overrides the scene's seeds).
+    #[arg(long)]
+    pub seed: Option<u64>,
+}
+
+/// `rotorsift adopt`: the input, the radar file, where the new recording goes.
+#[derive(clap::Args, Debug, Clone, PartialEq)]
+pub struct AdoptOptions {
+    /// A SigMF recording (NAME.sigmf-meta, NAME.sigmf-data or NAME) or a raw IQ file.
+    pub input: PathBuf,
+    /// The radar file: the rotorsift keys without their prefix (and, for a raw IQ
+    /// file, datatype, sample_rate_hz, carrier_hz, num_channels).
+    #[arg(long)]
+    pub radar: PathBuf,
+    /// Directory for NAME.sigmf-meta and NAME.sigmf-data (created if missing).
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Base name of the new recording (default: the input's).
+    #[arg(long)]
+    pub name: Option<String>,
+}

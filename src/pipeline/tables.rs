@@ -140,3 +140,29 @@ pub fn gather(
     }
     Ok((out, outcome))
 }
+
+/// `rotorsift features`: writes the tables of `analyses` (made with `settings` on
+/// `channel`) to `out` atomically, and returns the summary line for stderr.
+pub fn write_features(
+    analyses: &[RecordingAnalysis],
+    settings: &PipelineSettings,
+    channel: usize,
+    out: &Path,
+) -> Result<String> {
+    if analyses.is_empty() {
+        return Err(Error::Invalid(format!(
+            "no input recording could be read; {} left as it was",
+            out.display()
+        )));
+    }
+    let fp = fingerprint(settings, channel);
+    let tables: Vec<_> = analyses.iter().map(|a| of_analysis(a, &fp)).collect();
+    let text = crate::report::features_csv::to_csv(&tables);
+    crate::atomic::write_atomic(out, text.as_bytes())?;
+    let tracks = tables.iter().map(|t| t.tracks.len()).sum();
+    Ok(crate::report::features_csv::summary(
+        tracks,
+        tables.len(),
+        out,
+    ))
+}

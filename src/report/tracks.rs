@@ -161,3 +161,15 @@ pub fn to_table(report: &TrackReport) -> Table {
     }
     t
 }
+
+/// The listing as `--format` asks: the table, or JSON (pretty, one trailing newline).
+pub fn render(report: &TrackReport, format: super::Format) -> crate::Result<String> {
+    Ok(match format {
+        super::Format::Json => {
+            serde_json::to_string_pretty(report)
+                .map_err(|e| crate::Error::Invalid(format!("encoding JSON: {e}")))?
+                + "\n"
+        }
+        super::Format::Table => render_table(report),
+    })
+}
