@@ -46,3 +46,12 @@ pub fn ensure(ok: bool, msg: impl FnOnce() -> String) -> Result<()> {
         Err(Error::Invalid(msg()))
     }
 }
+
+/// Whether an error (one link of a chain) is a closed pipe on output, e.g. `| head`: the
+/// reader has gone, which is no failure of the command.
+pub fn is_broken_pipe(e: &(dyn std::error::Error + 'static)) -> bool {
+    e.downcast_ref::<std::io::Error>()
+        .is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe)
+        || matches!(e.downcast_ref::<Error>(),
+            Some(Error::Io { err, .. }) if err.kind() == std::io::ErrorKind::BrokenPipe)
+}

@@ -4,6 +4,7 @@
 //! beside them and `pipeline` composing the stages.
 
 pub mod atomic;
+pub mod cli_values;
 pub mod detect;
 pub mod error;
 pub mod features;

@@ -12,6 +12,8 @@ use crate::error::{Error, Result};
 pub const MAX_META_BYTES: u64 = 64 << 20;
 /// Largest model file read, bytes (the built-in model is about 0.2 MB).
 pub const MAX_MODEL_BYTES: u64 = 256 << 20;
+/// Largest feature table read, bytes (a track row is about 1 kB: a million tracks).
+pub const MAX_TABLE_BYTES: u64 = 1 << 30;
 /// Largest scene file read, bytes.
 pub const MAX_SCENE_BYTES: u64 = 1 << 20;
 /// Deepest nesting of JSON arrays and objects accepted.

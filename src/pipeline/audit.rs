@@ -8,14 +8,59 @@
 use std::collections::BTreeMap;
 use std::path::Path;
 
-use super::classify::{Classifier, Prediction};
+use super::classify::Classifier;
 use super::pictures::{
     extractor_for, name_of, range_doppler, signals_of, track_picture, Caption, Focus, PictureKind,
     Zoom,
 };
 use super::{match_tracks, RecordingAnalysis};
+use crate::cli_values::parse_probability;
 use crate::error::Result;
+pub use crate::report::audit::{Audit, AuditEntry, AuditRules, HOVERING_ROTORCRAFT};
 use crate::report::plot::write_png;
+
+/// The audit's options on the command line (`--low-confidence`, `--doubt`,
+/// `--max-pictures`, `--predicted`, `--track`).
+#[derive(clap::Args, Debug, Clone, PartialEq)]
+pub struct AuditOptions {
+    /// Tracks under this confidence are listed.
+    #[arg(long, default_value_t = 0.6, value_parser = parse_probability)]
+    pub low_confidence: f64,
+    /// Tracks whose bird and rotorcraft probabilities both reach this are listed.
+    #[arg(long, default_value_t = 0.2, value_parser = parse_probability)]
+    pub doubt: f64,
+    /// At most this many tracks get pictures (most doubtful first).
+    #[arg(long, default_value_t = 150)]
+    pub max_pictures: usize,
+    /// List every track predicted this class (e.g. rotorcraft: every drone alarm)
+    /// instead of the doubtful ones.
+    #[arg(long)]
+    pub predicted: Option<String>,
+    /// List this one track only: RECORDING:ID (the recording's name without
+    /// extension, the track id as `detect` prints it).
+    #[arg(long)]
+    pub track: Option<String>,
+}
+
+impl AuditOptions {
+    /// The checked selection rules, with the model's `--min-confidence`.
+    pub fn params(&self, min_confidence: f64) -> Result<AuditParams> {
+        let params = AuditParams {
+            low_confidence: self.low_confidence,
+            bird_rotor_doubt: self.doubt,
+            max_pictures: self.max_pictures,
+            min_confidence,
+            predicted: self.predicted.clone(),
+            track: self
+                .track
+                .as_deref()
+                .map(AuditParams::parse_track)
+                .transpose()?,
+        };
+        params.check()?;
+        Ok(params)
+    }
+}
 
 /// What makes a track doubtful.
 #[derive(Debug, Clone, PartialEq)]
@@ -49,6 +94,18 @@ impl Default for AuditParams {
 }
 
 impl AuditParams {
+    /// Reads `--track RECORDING:ID` (the recording's name without extension, the track id
+    /// as `detect` prints it).
+    pub fn parse_track(s: &str) -> Result<(String, usize)> {
+        let (rec, id) = s.rsplit_once(':').unwrap_or((s, ""));
+        let id: usize = id.parse().map_err(|_| {
+            crate::Error::Invalid(format!(
+                "--track {s}: expected RECORDING:ID, e.g. run-k24-00-uav:0"
+            ))
+        })?;
+        Ok((rec.to_string(), id))
+    }
+
     /// Checks every value; the error names the option and the allowed range.
     pub fn check(&self) -> Result<()> {
         for (name, v) in [
@@ -70,67 +127,8 @@ impl AuditParams {
 /// important ones (mean decrease in impurity), this many.
 pub const TOP_FEATURES: usize = 6;
 
-/// One listed track.
-#[derive(Debug, Clone)]
-pub struct AuditEntry {
-    pub recording: String,
-    /// The recording's base name (no `.sigmf-meta`): `RECORDING` of `--track RECORDING:ID`.
-    pub name: String,
-    /// `core:datetime` of the recording, when it has one.
-    pub datetime: Option<String>,
-    /// Channel the analysis read (for the redraw command lines).
-    pub channel: usize,
-    pub track_id: usize,
-    pub start_s: f64,
-    pub end_s: f64,
-    pub range_m: f64,
-    pub radial_velocity_mps: f64,
-    pub snr_db: f64,
-    pub hovering: bool,
-    pub blade_flash_hz: Option<f64>,
-    pub tip_speed_mps: Option<f64>,
-    /// True when the tip speed sits at the unambiguous speed (a lower bound).
-    pub tip_speed_is_bound: bool,
-    /// Harmonic-sum strength of the blade flashes, dB (blanked with the other rotor
-    /// figures for a track not taken to show a rotor).
-    pub blade_flash_strength_db: Option<f64>,
-    /// Wingbeat-band cadence (`cadence_low_hz`) and its strength, dB.
-    pub wingbeat_hz: Option<f64>,
-    pub wingbeat_strength_db: Option<f64>,
-    /// Share of the track's CPIs found only inside the canceller notch.
-    pub notch_share: f64,
-    /// The model's most important features with this track's values: (name, unit, value).
-    pub top_features: Vec<(&'static str, &'static str, f64)>,
-    /// The matched annotation's label and target id, if any.
-    pub truth: Option<String>,
-    pub target_id: Option<String>,
-    pub prediction: Prediction,
-    pub reasons: Vec<String>,
-    /// Picture files, relative to the audit directory, with their kind.
-    pub pictures: Vec<(PictureKind, String)>,
-    /// Doubt score: misclassified first, then by lowest confidence.
-    pub score: f64,
-}
-
-/// The audit's result.
-#[derive(Debug, Clone, Default)]
-pub struct Audit {
-    pub model: String,
-    pub recordings: usize,
-    pub tracks: usize,
-    pub matched: usize,
-    /// Track-level counts (true label, predicted) over matched tracks.
-    pub confusion: BTreeMap<(String, String), usize>,
-    pub entries: Vec<AuditEntry>,
-    /// The selection rules in force, for the page's header.
-    pub params: AuditParams,
-}
-
 /// The rotorcraft class: its hovering tracks are always listed.
 pub const ROTORCRAFT: &str = "rotorcraft";
-
-/// The reason given to a hovering track labelled rotorcraft.
-pub const HOVERING_ROTORCRAFT: &str = "hovering rotorcraft";
 
 /// File-name-safe stem of a recording.
 fn stem(meta: &crate::recording::RecordingMeta) -> String {
@@ -159,7 +157,12 @@ pub fn audit(
     let mut out = Audit {
         model: clf.name.clone(),
         recordings: analyses.len(),
-        params: params.clone(),
+        rules: AuditRules {
+            low_confidence: params.low_confidence,
+            bird_rotor_doubt: params.bird_rotor_doubt,
+            predicted: params.predicted.clone(),
+            track: params.track.clone(),
+        },
         ..Default::default()
     };
     // the model's most important features, by index into the feature vector
@@ -270,7 +273,10 @@ pub fn audit(
                     top_features,
                     truth: ann.map(|x| x.label.clone()),
                     target_id: ann.and_then(|x| x.target_id.clone()),
-                    prediction: p,
+                    label: p.label.clone(),
+                    confidence: p.confidence,
+                    probabilities: p.probabilities.clone(),
+                    shows_rotor: rotor,
                     reasons,
                     pictures: Vec::new(),
                     score,
@@ -298,10 +304,7 @@ pub fn audit(
         for ((&k, sig), track) in ks.iter().zip(&sigs).zip(&tracks) {
             let at = &a.tracks[picked[k].1];
             let entry = &mut picked[k].2;
-            let caption = Caption::of_track(
-                at,
-                Some((&entry.prediction.label, entry.prediction.confidence)),
-            );
+            let caption = Caption::of_track(at, Some((&entry.label, entry.confidence)));
             for kind in [PictureKind::Spectrogram, PictureKind::Cadence] {
                 if let Ok(h) = track_picture(&a.meta, &ex, sig, kind, &caption, Zoom::default()) {
                     let file = format!("img/{name}-t{}-{}.png", entry.track_id, kind.name());
@@ -323,4 +326,27 @@ pub fn audit(
     }
     out.entries = picked.into_iter().map(|(_, _, e)| e).collect();
     Ok(out)
+}
+
+/// `rotorsift audit`: runs the audit into `dir` (created if missing), writes
+/// `dir/index.html` atomically and returns the summary line for stderr.
+pub fn write_page(
+    analyses: &[RecordingAnalysis],
+    clf: &Classifier,
+    params: &AuditParams,
+    channel: usize,
+    dir: &Path,
+) -> Result<String> {
+    std::fs::create_dir_all(dir)
+        .map_err(|e| crate::Error::Invalid(format!("creating {}: {e}", dir.display())))?;
+    let a = audit(analyses, clf, params, channel, dir)?;
+    let index = dir.join("index.html");
+    let page = crate::report::audit::to_html(&a, crate::VERSION);
+    crate::atomic::write_atomic(&index, page.as_bytes())?;
+    Ok(format!(
+        "rotorsift: {} of {} tracks listed in {}",
+        a.entries.len(),
+        a.tracks,
+        index.display()
+    ))
 }

@@ -6,12 +6,16 @@ use std::collections::BTreeMap;
 
 use serde::Serialize;
 
-use super::{match_tracks, PipelineSettings, RecordingAnalysis};
+use super::tables::RecordingTable;
+use super::PipelineSettings;
+use crate::cli_values::{parse_fraction, parse_probability};
 use crate::error::{Error, Result};
 use crate::features::names;
 use crate::model::{
     Dataset, FalseAlarms, Forest, ForestParams, ModelFile, RadarCrossValidation, Scores,
 };
+pub use crate::report::evaluate::{Evaluation, ModelExpectation};
+pub use crate::report::train::TrainReport;
 
 /// The label of tracks whose confidence is under `--min-confidence`.
 pub const UNKNOWN: &str = "unknown";
@@ -23,14 +27,11 @@ pub const BACKGROUND_CLASS: &str = "clutter";
 /// The class whose false tracks the false-alarm report counts per hour.
 pub const ALARM_CLASS: &str = "rotorcraft";
 
-/// The label an unmatched track of `meta` gets: `unlabelled_as` when given, else
+/// The label an unmatched track of a recording gets: `unlabelled_as` when given, else
 /// [`BACKGROUND_CLASS`] when the recording's labels are complete, else none (the track is
 /// left out and counted).
-pub fn unmatched_label<'a>(
-    meta: &crate::recording::RecordingMeta,
-    unlabelled_as: Option<&'a str>,
-) -> Option<&'a str> {
-    unlabelled_as.or(meta.labels_complete.then_some(BACKGROUND_CLASS))
+pub fn unmatched_label(labels_complete: bool, unlabelled_as: Option<&str>) -> Option<&str> {
+    unlabelled_as.or(labels_complete.then_some(BACKGROUND_CLASS))
 }
 
 /// Labelled feature rows of a set of analyses.
@@ -48,16 +49,13 @@ pub struct LabelledRows {
 /// Rows of every track that matches an annotation, and of the unmatched ones that
 /// [`unmatched_label`] names (`unlabelled_as`, or background in recordings whose labels
 /// are complete).
-pub fn labelled_rows(analyses: &[RecordingAnalysis], unlabelled_as: Option<&str>) -> LabelledRows {
+pub fn labelled_rows(tables: &[RecordingTable], unlabelled_as: Option<&str>) -> LabelledRows {
     let mut out = LabelledRows::default();
-    for a in analyses {
-        let spans: Vec<_> = a.tracks.iter().map(|t| t.span()).collect();
-        let m = match_tracks(&spans, &a.meta.annotations, &a.meta.params);
-        let background = unmatched_label(&a.meta, unlabelled_as);
-        for (t, mi) in a.tracks.iter().zip(m) {
-            let label = match (mi, background) {
-                (Some(i), _) => a.meta.annotations[i].label.clone(),
-                (None, Some(l)) => l.to_string(),
+    for a in tables {
+        let background = unmatched_label(a.labels_complete, unlabelled_as);
+        for t in &a.tracks {
+            let label = match (a.label_of(t), background) {
+                (Some(l), _) | (None, Some(l)) => l.to_string(),
                 (None, None) => {
                     out.unmatched += 1;
                     continue;
@@ -65,8 +63,8 @@ pub fn labelled_rows(analyses: &[RecordingAnalysis], unlabelled_as: Option<&str>
             };
             out.rows.push(t.features.clone());
             out.labels.push(label);
-            out.groups.push(a.meta.meta_path.display().to_string());
-            out.radars.push(radar_key(&a.meta.params));
+            out.groups.push(a.recording.clone());
+            out.radars.push(a.radar.clone());
         }
     }
     out
@@ -149,54 +147,51 @@ fn leave_one_radar_out(
 }
 
 /// Options of `train`.
-#[derive(Debug, Clone)]
+#[derive(clap::Args, Debug, Clone)]
 pub struct TrainOptions {
+    /// Share of the tracks (by whole recordings) held out for scoring.
+    #[arg(long, default_value_t = 0.3, value_parser = parse_fraction)]
     pub holdout_fraction: f64,
+    /// Seed of the split and of the ensemble.
+    #[arg(long, default_value_t = 7)]
     pub seed: u64,
+    /// Trees in the ensemble.
+    #[arg(long, default_value_t = 200)]
     pub trees: usize,
+    /// Train on unmatched tracks too, with this label.
+    #[arg(long)]
     pub unlabelled_as: Option<String>,
     /// Also score a grouped k-fold cross-validation by recording (0 = off).
+    #[arg(long, default_value_t = 5)]
     pub folds: usize,
-    /// Step towards uniform per feature outside the training domain (0 = no domain
-    /// check), see [`crate::model::Domain`].
+    /// Step towards uniform probabilities per feature outside the training domain
+    /// (0 = no domain check)
+    #[arg(long, default_value_t = crate::model::domain::DEFAULT_STEP, value_parser = parse_probability)]
     pub domain_step: f64,
 }
 
-/// What `train` measured and made.
-#[derive(Debug, Clone, Serialize)]
-pub struct TrainReport {
-    pub classes: Vec<String>,
-    pub train_tracks: usize,
-    pub test_tracks: usize,
-    pub train_recordings: usize,
-    pub test_recordings: Vec<String>,
-    pub tracks_unmatched: usize,
-    /// Track-level scores on the held-out recordings.
-    pub heldout: Scores,
-    /// Feature importances (mean decrease in impurity), largest first.
-    pub importances: Vec<(String, f64)>,
-    pub oob_accuracy: f64,
-    /// Track-level scores of a grouped k-fold cross-validation (every recording held out
-    /// once), when asked for.
-    pub cross_validated: Option<Scores>,
-    /// Folds of that cross-validation: `--folds`, capped to the labelled recordings.
-    pub folds: usize,
-    /// Leave-one-radar-out cross-validation (with two radars or more).
-    pub radar_cross_validated: Option<RadarCrossValidation>,
-    /// Notes for stderr (e.g. folds capped to the recordings).
-    #[serde(skip)]
-    pub notes: Vec<String>,
+impl Default for TrainOptions {
+    fn default() -> Self {
+        TrainOptions {
+            holdout_fraction: 0.3,
+            seed: 7,
+            trees: 200,
+            unlabelled_as: None,
+            folds: 5,
+            domain_step: crate::model::domain::DEFAULT_STEP,
+        }
+    }
 }
 
 /// Trains on labelled analyses: scores a forest fitted on the training recordings on the
 /// held-out recordings, then fits the shipped model on all recordings (more data; the
 /// held-out figures are stored in the model's training summary).
 pub fn train(
-    analyses: &[RecordingAnalysis],
+    tables: &[RecordingTable],
     settings: &PipelineSettings,
     opts: &TrainOptions,
 ) -> Result<(ModelFile, TrainReport)> {
-    let lr = labelled_rows(analyses, opts.unlabelled_as.as_deref());
+    let lr = labelled_rows(tables, opts.unlabelled_as.as_deref());
     if lr.rows.is_empty() {
         return Err(Error::Invalid(
             "no track matches an annotation: nothing to train on (label the recordings, or use --unlabelled-as CLASS)".into(),
@@ -439,47 +434,32 @@ pub struct Prediction {
     pub probabilities: BTreeMap<String, f64>,
 }
 
-/// `evaluate`'s result (the documented `evaluate --format json`), plus track-level scores
-/// and the false-alarm report.
-#[derive(Debug, Clone, Serialize)]
-pub struct Evaluation {
-    #[serde(flatten)]
-    pub scores: Scores,
-    pub targets: usize,
-    pub targets_detected: usize,
-    pub tracks_unmatched: usize,
-    /// Scores over tracks (each track one sample): the matched ones, and the false tracks
-    /// with their background class.
-    pub track_level: Option<Scores>,
-    /// False tracks, over the recordings where a track matching no annotation is known to
-    /// be background; `None` when there is none.
-    pub false_alarms: Option<FalseAlarms>,
-    /// Target-level scores per radar (`radar_key`), with their calibration (ECE).
-    pub per_radar: BTreeMap<String, Scores>,
-    /// The model file's own cross-validated figures (what it promises), when stored.
-    pub model_expectation: Option<ModelExpectation>,
-}
-
 /// Scores labelled recordings: each annotation is a target, detected when a track matches
 /// it, predicted as the duration-weighted mean of its tracks' probabilities. A track that
 /// matches no annotation, in a recording whose labels are complete (or in any with
 /// `unlabelled_as`), is a false track: it enters the track-level scores with its
 /// [`unmatched_label`] and the false-alarm report.
 pub fn evaluate(
-    analyses: &[RecordingAnalysis],
+    tables: &[RecordingTable],
     clf: &Classifier,
     min_confidence: f64,
     unlabelled_as: Option<&str>,
 ) -> Result<Evaluation> {
+    if unlabelled_as.is_none()
+        && !tables
+            .iter()
+            .any(|a| !a.targets.is_empty() || a.labels_complete)
+    {
+        return Err(Error::Invalid("no labelled targets to score: the recordings carry no annotations (and none says rotorsift:labels_complete)".into()));
+    }
     let model_classes = &clf.model.class_names;
     let mut classes: Vec<String> = model_classes.clone();
-    for a in analyses {
+    for a in tables {
         let names = a
-            .meta
-            .annotations
+            .targets
             .iter()
-            .map(|ann| ann.label.as_str())
-            .chain(unmatched_label(&a.meta, unlabelled_as));
+            .map(String::as_str)
+            .chain(unmatched_label(a.labels_complete, unlabelled_as));
         for name in names {
             if !classes.iter().any(|c| c == name) {
                 classes.push(name.to_string());
@@ -504,18 +484,16 @@ pub fn evaluate(
     let mut alarms = FalseAlarmCount::default();
     type Rows = (Vec<usize>, Vec<usize>, Vec<Vec<f64>>);
     let mut by_radar: BTreeMap<String, Rows> = BTreeMap::new();
-    for a in analyses {
-        let radar = by_radar.entry(radar_key(&a.meta.params)).or_default();
-        let spans: Vec<_> = a.tracks.iter().map(|t| t.span()).collect();
-        let m = match_tracks(&spans, &a.meta.annotations, &a.meta.params);
+    for a in tables {
+        let radar = by_radar.entry(a.radar.clone()).or_default();
         let mut per_ann: Vec<(f64, Vec<f64>)> =
-            vec![(0.0, vec![0.0; model_classes.len()]); a.meta.annotations.len()];
-        let background = unmatched_label(&a.meta, unlabelled_as);
+            vec![(0.0, vec![0.0; model_classes.len()]); a.targets.len()];
+        let background = unmatched_label(a.labels_complete, unlabelled_as);
         if background.is_some() {
             alarms.recordings += 1;
-            alarms.duration_s += a.meta.duration_s();
+            alarms.duration_s += a.duration_s;
         }
-        for (t, mi) in a.tracks.iter().zip(&m) {
+        for t in &a.tracks {
             let label_of = |p: &[f64]| {
                 let best = crate::model::forest::argmax(p);
                 if p[best] < min_confidence {
@@ -524,7 +502,7 @@ pub fn evaluate(
                     model_classes[best].clone()
                 }
             };
-            let Some(i) = *mi else {
+            let Some(i) = t.annotation else {
                 unmatched += 1;
                 if let Some(bg) = background {
                     let p = clf.probabilities(&t.features)?;
@@ -541,10 +519,7 @@ pub fn evaluate(
                 continue;
             };
             let p = clf.probabilities(&t.features)?;
-            if background.is_some()
-                && label_of(&p) == ALARM_CLASS
-                && a.meta.annotations[i].label != ALARM_CLASS
-            {
+            if background.is_some() && label_of(&p) == ALARM_CLASS && a.targets[i] != ALARM_CLASS {
                 alarms.false_rotorcraft += 1;
             }
             let w = (t.end_s - t.start_s).max(1e-6);
@@ -559,11 +534,11 @@ pub fn evaluate(
             } else {
                 model_classes[best].as_str()
             };
-            k_true.push(idx(&a.meta.annotations[i].label));
+            k_true.push(idx(&a.targets[i]));
             k_pred.push(idx(label));
             k_prob.push(pe);
         }
-        for (ann, (w, acc)) in a.meta.annotations.iter().zip(per_ann) {
+        for (ann, (w, acc)) in a.targets.iter().zip(per_ann) {
             targets += 1;
             if w <= 0.0 {
                 continue;
@@ -576,10 +551,10 @@ pub fn evaluate(
             } else {
                 model_classes[best].as_str()
             };
-            t_true.push(idx(&ann.label));
+            t_true.push(idx(ann));
             t_pred.push(idx(label));
             t_prob.push(expand(&p));
-            radar.0.push(idx(&ann.label));
+            radar.0.push(idx(ann));
             radar.1.push(idx(label));
             radar.2.push(expand(&p));
         }
@@ -626,21 +601,6 @@ fn expectation(training: &serde_json::Value) -> Option<ModelExpectation> {
         grouped_kfold_accuracy: fig("cross_validated", "accuracy"),
         grouped_kfold_ece: fig("cross_validated", "ece"),
     })
-}
-
-/// The model's own cross-validated figures, printed by `evaluate` beside its result.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct ModelExpectation {
-    /// Track accuracy of the leave-one-radar-out cross-validation (an unseen radar).
-    pub leave_one_radar_out_accuracy: f64,
-    /// Its expected calibration error.
-    pub leave_one_radar_out_ece: Option<f64>,
-    /// Radars the model was trained on.
-    pub radars: usize,
-    /// Track accuracy of the grouped k-fold by recording (a training radar).
-    pub grouped_kfold_accuracy: Option<f64>,
-    /// Its expected calibration error.
-    pub grouped_kfold_ece: Option<f64>,
 }
 
 #[derive(Debug, Default)]

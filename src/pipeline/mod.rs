@@ -5,15 +5,19 @@ pub mod audit;
 pub mod batch;
 pub mod classify;
 pub mod matching;
+pub mod options;
+pub mod output;
 pub mod pictures;
 pub mod settings;
 pub mod signals;
+pub mod tables;
 pub mod tracks;
 
 use serde::{Deserialize, Serialize};
 
 pub use batch::{run_batch, run_batch_parallel, BatchOutcome};
 pub use matching::{match_tracks, matches, TrackSpan};
+pub use output::{analyse_inputs, BatchOptions};
 pub use settings::DetectSettings;
 pub use signals::{track_signals, TrackSignal};
 pub use tracks::{find_tracks, notch_mask, TrackRun};

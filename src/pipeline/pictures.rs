@@ -9,6 +9,7 @@ use rustfft::num_complex::Complex32;
 use super::signals::{track_signals, TrackSignal};
 use super::tracks::{cpi_fits, notch_mask, FrontEnd};
 use super::{AnalysedTrack, PipelineSettings};
+use crate::cli_values::{parse_cadence_max, parse_png_path, parse_velocity_span};
 use crate::detect::{Track, TrackPoint};
 use crate::error::{Error, Result};
 use crate::features::Extractor;
@@ -16,30 +17,7 @@ use crate::frontend::{CancellerState, CepstrumPlan, FrameKind, RangeDopplerPlan}
 use crate::recording::{ChirpBlock, ChirpReader, RecordingMeta};
 use crate::report::plot::{Band, HeatMap, Marker, MarkerKind};
 
-/// The kinds of picture.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
-pub enum PictureKind {
-    /// One CPI's clutter-cancelled range-Doppler map (the map CFAR reads).
-    RangeDoppler,
-    /// A track's micro-Doppler spectrogram (clutter removed).
-    Spectrogram,
-    /// A track's cepstrogram (real cepstrum of each spectrogram frame).
-    Cepstrogram,
-    /// A track's cadence-velocity diagram.
-    Cadence,
-}
-
-impl PictureKind {
-    /// The name used on the command line and in file names.
-    pub fn name(self) -> &'static str {
-        match self {
-            PictureKind::RangeDoppler => "range-doppler",
-            PictureKind::Spectrogram => "spectrogram",
-            PictureKind::Cepstrogram => "cepstrogram",
-            PictureKind::Cadence => "cadence",
-        }
-    }
-}
+pub use crate::report::plot::PictureKind;
 
 fn db(x: f32) -> f32 {
     10.0 * x.max(1e-30).log10()
@@ -706,4 +684,138 @@ mod tests {
             c.line()
         );
     }
+}
+
+/// What `rotorsift plot` draws, and where.
+#[derive(clap::Args, Debug, Clone, PartialEq)]
+pub struct PlotOptions {
+    /// What to draw.
+    #[arg(long, value_enum)]
+    pub kind: PictureKind,
+    /// Track id (as `detect` prints); default: the strongest track. For range-doppler,
+    /// the CPI at the track's middle (default: the recording's middle).
+    #[arg(long)]
+    pub track: Option<usize>,
+    /// PNG file to write (must end in .png).
+    #[arg(long, value_parser = parse_png_path)]
+    pub out: std::path::PathBuf,
+    /// Velocity axis of the spectrogram and cadence diagram: the track's body velocity
+    /// plus and minus this, m/s (default: fitted to the track's micro-Doppler spread).
+    #[arg(long, value_name = "M/S", value_parser = parse_velocity_span)]
+    pub velocity_span: Option<f64>,
+    /// Top of the cadence diagram's cadence axis, Hz (default: fitted to the
+    /// track's strongest cadence lines).
+    #[arg(long, value_name = "HZ", value_parser = parse_cadence_max)]
+    pub cadence_max: Option<f64>,
+}
+
+impl PlotOptions {
+    /// The axes' reach the options ask for.
+    pub fn zoom(&self) -> Zoom {
+        Zoom {
+            velocity_span_mps: self.velocity_span,
+            cadence_max_hz: self.cadence_max,
+        }
+    }
+}
+
+/// One picture `rotorsift plot` draws, and what its caption could say.
+#[derive(Debug, Clone)]
+pub struct Plotted {
+    /// The picture.
+    pub heat: crate::report::plot::HeatMap,
+    /// A track was drawn (or focused) but left unlabelled: `settings` are not the
+    /// built-in model's, so its label would not mean anything.
+    pub unlabelled: bool,
+}
+
+/// Draws one picture of a recording: the range-Doppler map of the CPI at the middle of
+/// track `track` (default: the strongest; with no track, the recording's middle), or that
+/// track's spectrogram, cepstrogram or cadence diagram. The track is labelled by the
+/// built-in model when `settings` are its settings.
+pub fn plot(
+    meta: &RecordingMeta,
+    channel: usize,
+    settings: &PipelineSettings,
+    kind: PictureKind,
+    track: Option<usize>,
+    zoom: Zoom,
+) -> Result<Plotted> {
+    settings.detect.check()?;
+    let clf = super::classify::Classifier::load(None)?;
+    let labelled = clf.settings == *settings;
+    let a = super::analyse(meta, channel, settings, labelled)?;
+    let chosen = match track {
+        Some(id) => Some(a.tracks.iter().find(|t| t.track.id == id).ok_or_else(|| {
+            crate::Error::Invalid(format!(
+                "{}: no track {id} (the recording has {} tracks; `rotorsift detect` lists them)",
+                meta.meta_path.display(),
+                a.tracks.len()
+            ))
+        })?),
+        None => a
+            .tracks
+            .iter()
+            .max_by(|x, y| x.track.mean_snr_db().total_cmp(&y.track.mean_snr_db())),
+    };
+    let caption = chosen.map(|t| {
+        let p = labelled
+            .then(|| clf.predict(&t.features, 0.0).ok())
+            .flatten();
+        Caption::of_track(t, p.as_ref().map(|p| (p.label.as_str(), p.confidence)))
+    });
+    let heat = if kind == PictureKind::RangeDoppler {
+        let centre = chosen
+            .map(|t| 0.5 * (t.start_s + t.end_s))
+            .unwrap_or(0.5 * meta.duration_s());
+        let tracks: Vec<_> = a.tracks.iter().map(|t| t.track.clone()).collect();
+        let focus = chosen.zip(caption.as_ref()).map(|(t, c)| Focus {
+            track: &t.track,
+            caption: c,
+        });
+        range_doppler(meta, channel, settings, centre, &tracks, focus)?
+    } else {
+        let t = chosen.ok_or_else(|| {
+            crate::Error::Invalid(format!(
+                "{}: no tracks to draw a {} of",
+                meta.meta_path.display(),
+                kind.name()
+            ))
+        })?;
+        let sigs = signals_of(meta, channel, settings, std::slice::from_ref(&t.track))?;
+        track_picture(
+            meta,
+            &extractor_for(meta, settings)?,
+            &sigs[0],
+            kind,
+            caption.as_ref().unwrap_or(&Caption::default()),
+            zoom,
+        )?
+    };
+    Ok(Plotted {
+        heat,
+        unlabelled: chosen.is_some() && !labelled,
+    })
+}
+
+/// `rotorsift plot`: resolves `input` to one recording, draws the picture `opts` asks
+/// for ([`plot`]) and writes it to `opts.out` as PNG.
+pub fn plot_file(
+    input: &std::path::Path,
+    channel: usize,
+    settings: &PipelineSettings,
+    opts: &PlotOptions,
+) -> Result<Plotted> {
+    let paths = crate::recording::resolve_inputs(&[input.to_path_buf()])?;
+    if paths.len() != 1 {
+        return Err(Error::Invalid(format!(
+            "{}: plot takes one recording, found {}",
+            input.display(),
+            paths.len()
+        )));
+    }
+    let meta = RecordingMeta::open(&paths[0])?;
+    let p = plot(&meta, channel, settings, opts.kind, opts.track, opts.zoom())?;
+    crate::report::plot::write_png(&p.heat, &opts.out)?;
+    Ok(p)
 }

@@ -3,11 +3,89 @@
 //! physical estimates, the model's top features, their pictures (`DIR/img/*.png`) and the
 //! `rotorsift plot` command lines that redraw them.
 
-use std::collections::BTreeSet;
+use std::collections::{BTreeMap, BTreeSet};
 use std::fmt::Write;
 
-use crate::pipeline::audit::{Audit, AuditEntry, HOVERING_ROTORCRAFT};
-use crate::pipeline::pictures::PictureKind;
+use super::plot::PictureKind;
+
+/// The reason given to a hovering track labelled rotorcraft.
+pub const HOVERING_ROTORCRAFT: &str = "hovering rotorcraft";
+
+/// The selection rules in force, as the page's header states them.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct AuditRules {
+    /// Tracks whose confidence is below this are listed.
+    pub low_confidence: f64,
+    /// Tracks whose bird and rotorcraft probabilities are both at least this are listed.
+    pub bird_rotor_doubt: f64,
+    /// Every track predicted this class is listed instead of the doubtful ones.
+    pub predicted: Option<String>,
+    /// This one track only: (recording name, track id).
+    pub track: Option<(String, usize)>,
+}
+
+/// One listed track.
+#[derive(Debug, Clone)]
+pub struct AuditEntry {
+    pub recording: String,
+    /// The recording's base name (no `.sigmf-meta`): `RECORDING` of `--track RECORDING:ID`.
+    pub name: String,
+    /// `core:datetime` of the recording, when it has one.
+    pub datetime: Option<String>,
+    /// Channel the analysis read (for the redraw command lines).
+    pub channel: usize,
+    pub track_id: usize,
+    pub start_s: f64,
+    pub end_s: f64,
+    pub range_m: f64,
+    pub radial_velocity_mps: f64,
+    pub snr_db: f64,
+    pub hovering: bool,
+    pub blade_flash_hz: Option<f64>,
+    pub tip_speed_mps: Option<f64>,
+    /// True when the tip speed sits at the unambiguous speed (a lower bound).
+    pub tip_speed_is_bound: bool,
+    /// Harmonic-sum strength of the blade flashes, dB (blanked with the other rotor
+    /// figures for a track not taken to show a rotor).
+    pub blade_flash_strength_db: Option<f64>,
+    /// Wingbeat-band cadence (`cadence_low_hz`) and its strength, dB.
+    pub wingbeat_hz: Option<f64>,
+    pub wingbeat_strength_db: Option<f64>,
+    /// Share of the track's CPIs found only inside the canceller notch.
+    pub notch_share: f64,
+    /// The model's most important features with this track's values: (name, unit, value).
+    pub top_features: Vec<(&'static str, &'static str, f64)>,
+    /// The matched annotation's label and target id, if any.
+    pub truth: Option<String>,
+    pub target_id: Option<String>,
+    /// The predicted class (`unknown` under `--min-confidence`), its confidence and the
+    /// class probabilities.
+    pub label: String,
+    pub confidence: f64,
+    pub probabilities: BTreeMap<String, f64>,
+    /// Whether the track is taken to show a rotor (the pipeline's rule: no rotor figures
+    /// for bird or clutter); the rotor fields are already blanked when not.
+    pub shows_rotor: bool,
+    pub reasons: Vec<String>,
+    /// Picture files, relative to the audit directory, with their kind.
+    pub pictures: Vec<(PictureKind, String)>,
+    /// Doubt score: misclassified first, then by lowest confidence.
+    pub score: f64,
+}
+
+/// The audit's result.
+#[derive(Debug, Clone, Default)]
+pub struct Audit {
+    pub model: String,
+    pub recordings: usize,
+    pub tracks: usize,
+    pub matched: usize,
+    /// Track-level counts (true label, predicted) over matched tracks.
+    pub confusion: BTreeMap<(String, String), usize>,
+    pub entries: Vec<AuditEntry>,
+    /// The selection rules in force, for the page's header.
+    pub rules: AuditRules,
+}
 
 /// Escapes text for HTML.
 pub fn escape(s: &str) -> String {
@@ -69,7 +147,7 @@ pub fn plot_command(e: &AuditEntry, kind: PictureKind) -> String {
 
 /// Why tracks are listed, as the page's header says it.
 fn rules(a: &Audit) -> String {
-    let p = &a.params;
+    let p = &a.rules;
     let mut h = String::from("<dl>");
     if let Some((rec, id)) = &p.track {
         let _ = write!(
@@ -161,7 +239,6 @@ Each track is one element whose <code>data-track</code> attribute reads RECORDIN
 
 fn entry_html(h: &mut String, e: &AuditEntry) {
     let probs: Vec<String> = e
-        .prediction
         .probabilities
         .iter()
         .map(|(k, v)| format!("{} {:.2}", escape(k), v))
@@ -192,7 +269,7 @@ fn entry_html(h: &mut String, e: &AuditEntry) {
         e.range_m,
         e.radial_velocity_mps,
         e.snr_db,
-        if !e.prediction.shows_rotor() {
+        if !e.shows_rotor {
             "-"
         } else if e.hovering {
             "yes"
@@ -204,8 +281,8 @@ fn entry_html(h: &mut String, e: &AuditEntry) {
             (Some(l), None) => escape(l),
             _ => "-".into(),
         },
-        escape(&e.prediction.label),
-        e.prediction.confidence,
+        escape(&e.label),
+        e.confidence,
         probs.join(", ")
     );
     let tip = match e.tip_speed_mps {

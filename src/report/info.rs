@@ -125,3 +125,17 @@ pub fn to_table(records: &[InfoRecord]) -> Table {
     }
     t
 }
+
+/// The text `info` prints: JSON (pretty, one trailing newline) or the table (nothing at
+/// all when no recording could be read: no empty header).
+pub fn render(records: &[InfoRecord], format: super::Format) -> crate::Result<String> {
+    Ok(match format {
+        super::Format::Json => {
+            serde_json::to_string_pretty(&to_json(records))
+                .map_err(|e| crate::Error::Invalid(format!("encoding JSON: {e}")))?
+                + "\n"
+        }
+        super::Format::Table if records.is_empty() => String::new(),
+        super::Format::Table => to_table(records).render(),
+    })
+}

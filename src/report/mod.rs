@@ -2,6 +2,7 @@
 //! `report` reads results; it computes none.
 
 pub mod audit;
+pub mod evaluate;
 pub mod features_csv;
 pub mod font;
 pub mod info;
@@ -9,6 +10,7 @@ pub mod plot;
 pub mod scores;
 pub mod table;
 pub mod tracks;
+pub mod train;
 
 pub use table::Table;
 

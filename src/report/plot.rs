@@ -12,6 +12,31 @@ use plotters::prelude::*;
 use super::font::{self, Across, Align, Style};
 use crate::error::{Error, Result};
 
+/// The kinds of picture.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum PictureKind {
+    /// One CPI's clutter-cancelled range-Doppler map (the map CFAR reads).
+    RangeDoppler,
+    /// A track's micro-Doppler spectrogram (clutter removed).
+    Spectrogram,
+    /// A track's cepstrogram (real cepstrum of each spectrogram frame).
+    Cepstrogram,
+    /// A track's cadence-velocity diagram.
+    Cadence,
+}
+
+impl PictureKind {
+    /// The name used on the command line and in file names.
+    pub fn name(self) -> &'static str {
+        match self {
+            PictureKind::RangeDoppler => "range-doppler",
+            PictureKind::Spectrogram => "spectrogram",
+            PictureKind::Cepstrogram => "cepstrogram",
+            PictureKind::Cadence => "cadence",
+        }
+    }
+}
+
 /// A mark on the picture, in axis units.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Marker {

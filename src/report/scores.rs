@@ -3,7 +3,6 @@
 
 use super::Table;
 use crate::model::{FalseAlarms, RadarCrossValidation, Scores};
-use crate::pipeline::classify::{Evaluation, TrainReport};
 
 /// The confusion matrix as a table.
 pub fn confusion_table(s: &Scores) -> Table {
@@ -127,7 +126,7 @@ fn scores_by_radar(
 }
 
 /// "s" for a count other than one.
-fn plural(n: usize) -> &'static str {
+pub(crate) fn plural(n: usize) -> &'static str {
     if n == 1 {
         ""
     } else {
@@ -135,83 +134,7 @@ fn plural(n: usize) -> &'static str {
     }
 }
 
-/// The table report of `train`.
-pub fn render_train(rep: &TrainReport, folds: usize, model: &std::path::Path) -> String {
-    let mut s = format!(
-        "trained on {} track{} ({} recording{}); held out {} track{} of {} recording{}; {} unmatched track{} left out\n\nheld-out confusion matrix (rows true, columns predicted):\n{}\n",
-        rep.train_tracks,
-        plural(rep.train_tracks),
-        rep.train_recordings,
-        plural(rep.train_recordings),
-        rep.test_tracks,
-        plural(rep.test_tracks),
-        rep.test_recordings.len(),
-        plural(rep.test_recordings.len()),
-        rep.tracks_unmatched,
-        plural(rep.tracks_unmatched),
-        render(&rep.heldout)
-    );
-    if let Some(cv) = &rep.cross_validated {
-        s += &format!(
-            "grouped {folds}-fold cross-validation by recording (every recording held out once):\n{}\n",
-            render(cv)
-        );
-    }
-    if let Some(cv) = &rep.radar_cross_validated {
-        s += &format!(
-            "leave-one-radar-out cross-validation (each radar predicted by a model of the others: what to expect on an unseen radar):\n{}\n{}\n",
-            render(&cv.pooled),
-            radar_table(cv).render()
-        );
-    }
-    s += &format!(
-        "feature importances (top 12):\n{}\nmodel written to {}\n",
-        importance_table(&rep.importances, 12).render(),
-        model.display()
-    );
-    s
-}
-
 /// Per-radar target scores of `evaluate`: targets, accuracy, rotorcraft recall, ECE.
 pub fn per_radar_table(per_radar: &std::collections::BTreeMap<String, Scores>) -> Table {
     scores_by_radar("radar", "targets", per_radar)
-}
-
-/// The table report of `evaluate` (ECE: expected calibration error, 10 bins).
-pub fn render_evaluation(ev: &Evaluation, model_name: &str) -> String {
-    let mut s = format!(
-        "model {}: {} target{}, {} detected, {} unmatched track{}\n\ntargets (rows true, columns predicted):\n{}",
-        model_name,
-        ev.targets,
-        if ev.targets == 1 { "" } else { "s" },
-        ev.targets_detected,
-        ev.tracks_unmatched,
-        if ev.tracks_unmatched == 1 { "" } else { "s" },
-        if ev.targets == 0 {
-            "(no labelled targets)\n".to_string()
-        } else {
-            render(&ev.scores)
-        }
-    );
-    if ev.per_radar.len() > 1 || (ev.targets > 0 && !ev.per_radar.is_empty()) {
-        s += &format!(
-            "\nper radar (ECE: expected calibration error):\n{}",
-            per_radar_table(&ev.per_radar).render()
-        );
-    }
-    if let Some(f) = &ev.false_alarms {
-        s += &format!("\n{}", render_false_alarms(f));
-    }
-    if let Some(x) = &ev.model_expectation {
-        let opt = |v: Option<f64>| v.map(|v| format!("{v:.3}")).unwrap_or_else(|| "-".into());
-        s += &format!(
-            "\nwhat the model promises (its own cross-validation, tracks): on an unseen radar accuracy {:.3}, ECE {} (leave-one-radar-out over {} radars); on a training radar accuracy {}, ECE {} (grouped k-fold by recording)\n",
-            x.leave_one_radar_out_accuracy,
-            opt(x.leave_one_radar_out_ece),
-            x.radars,
-            opt(x.grouped_kfold_accuracy),
-            opt(x.grouped_kfold_ece)
-        );
-    }
-    s
 }

@@ -39,6 +39,11 @@ pub struct TrackOut {
     /// The label of the annotation this track matches, when the recording has labels.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub matched_label: Option<String>,
+    /// Whether the track is taken to show a rotor (the pipeline decides it from the label;
+    /// true when unlabelled). The table prints no hovering verdict when not; the rotor
+    /// figures are already blanked.
+    #[serde(skip)]
+    pub shows_rotor: bool,
 }
 
 /// One recording's tracks as printed.
@@ -138,14 +143,10 @@ pub fn to_table(report: &TrackReport) -> Table {
                 format!("{:.1}", tr.range_m),
                 format!("{:+.2}", tr.radial_velocity_mps),
                 format!("{:.1}", tr.snr_db),
-                match (&tr.label, tr.hovering) {
-                    (Some(l), _)
-                        if crate::pipeline::classify::NO_ROTOR_CLASSES.contains(&l.as_str()) =>
-                    {
-                        "-"
-                    }
-                    (_, true) => "yes",
-                    (_, false) => "no",
+                match (tr.shows_rotor, tr.hovering) {
+                    (false, _) => "-",
+                    (true, true) => "yes",
+                    (true, false) => "no",
                 }
                 .to_string(),
                 opt(tr.blade_flash_hz, 0),
@@ -159,4 +160,16 @@ pub fn to_table(report: &TrackReport) -> Table {
         }
     }
     t
+}
+
+/// The listing as `--format` asks: the table, or JSON (pretty, one trailing newline).
+pub fn render(report: &TrackReport, format: super::Format) -> crate::Result<String> {
+    Ok(match format {
+        super::Format::Json => {
+            serde_json::to_string_pretty(report)
+                .map_err(|e| crate::Error::Invalid(format!("encoding JSON: {e}")))?
+                + "\n"
+        }
+        super::Format::Table => render_table(report),
+    })
 }

@@ -19,6 +19,7 @@ use super::noise::{cn64, stream_rng};
 use super::radar_eq::{db_to_lin, lin_to_db};
 use super::scene::VegetationSpec;
 use super::synth::{Ctx, Source};
+use super::wind::{beta_of_class, class_of_wind};
 
 /// Segment length of the AC generator, chirps (frequency grid PRF / 8192).
 pub const SEGMENT: usize = 8192;
@@ -27,31 +28,6 @@ pub const SEGMENT: usize = 8192;
 /// GHz), linear.
 pub fn billingsley_dc_ac_ratio(wind_mph: f64, carrier_ghz: f64) -> f64 {
     489.8 * wind_mph.powf(-1.55) * carrier_ghz.powf(-1.21)
-}
-
-/// Exponential shape parameter beta (per m/s) of a wind class (Billingsley 2002, from
-/// memory): light air 12, breezy 8, windy 5.7, gale 4.3.
-pub fn beta_of_class(class: &str) -> Option<f64> {
-    match class {
-        "light-air" => Some(12.0),
-        "breezy" => Some(8.0),
-        "windy" => Some(5.7),
-        "gale" => Some(4.3),
-        _ => None,
-    }
-}
-
-/// Wind class of a wind speed in mph: < 7.5 light air, < 15 breezy, < 30 windy, else gale.
-pub fn class_of_wind(wind_mph: f64) -> &'static str {
-    if wind_mph < 7.5 {
-        "light-air"
-    } else if wind_mph < 15.0 {
-        "breezy"
-    } else if wind_mph < 30.0 {
-        "windy"
-    } else {
-        "gale"
-    }
 }
 
 /// Shaping filter |H_k| on the unshifted FFT grid of `len` slow-time bins (bin k at

@@ -15,6 +15,7 @@ pub mod rotor;
 pub mod scene;
 pub mod scintillation;
 pub mod synth;
+pub mod wind;
 
 use std::path::{Path, PathBuf};
 

@@ -971,7 +971,7 @@ fn check_object(o: &ObjectSpec, p: &RadarParams) -> Result<()> {
             rcs("rcs_dbsm_per_cell", v.rcs_dbsm_per_cell)?;
             range("wind_mph", v.wind_mph, 0.1, 100.0)?;
             if let Some(c) = &v.wind_class {
-                super::clutter::beta_of_class(c).ok_or_else(|| {
+                super::wind::beta_of_class(c).ok_or_else(|| {
                     Error::Invalid(format!(
                         "wind_class = \"{c}\": expected \"light-air\", \"breezy\", \"windy\" or \"gale\""
                     ))
