@@ -76,7 +76,11 @@ pub fn median_of_keys_in_band(keys: &mut [i32], lo: i32, hi: i32, band: &mut Vec
             return hi_value;
         }
         // even: the lower middle is the largest key ranked below j (j >= 1 here)
-        let lo_value = band[..j].iter().copied().max().map_or(hi_value, from_total_key);
+        let lo_value = band[..j]
+            .iter()
+            .copied()
+            .max()
+            .map_or(hi_value, from_total_key);
         return 0.5 * (lo_value + hi_value);
     }
     median_of_keys(keys)
@@ -241,9 +245,14 @@ mod tests {
             let mut k2 = k.clone();
             assert_eq!(median_of_keys(&mut k), want);
             // any band, right or wrong, gives the same median
-            for (lo, hi) in [(0.0f32, 1e9), (want * 0.9, want * 1.1), (want, want * 1.0001),
-                (want * 1.01, want * 2.0), (0.0, want * 0.5), (want * 0.999, want)]
-            {
+            for (lo, hi) in [
+                (0.0f32, 1e9),
+                (want * 0.9, want * 1.1),
+                (want, want * 1.0001),
+                (want * 1.01, want * 2.0),
+                (0.0, want * 0.5),
+                (want * 0.999, want),
+            ] {
                 let got = median_of_keys_in_band(&mut k2, total_key(lo), total_key(hi), &mut band);
                 assert_eq!(got, want, "n {n} band {lo}..{hi}");
             }
