@@ -37,8 +37,11 @@ pub fn unmatched_label(labels_complete: bool, unlabelled_as: Option<&str>) -> Op
 /// Labelled feature rows of a set of analyses.
 #[derive(Debug, Clone, Default)]
 pub struct LabelledRows {
+    /// Feature vectors, one per labelled track.
     pub rows: Vec<Vec<f64>>,
+    /// The label of each row.
     pub labels: Vec<String>,
+    /// The recording of each row (the grouped splits hold whole recordings out).
     pub groups: Vec<String>,
     /// The radar of each row ([`radar_key`]).
     pub radars: Vec<String>,
@@ -312,7 +315,9 @@ pub fn train(
 /// A loaded model with the pipeline settings its features need.
 #[derive(Debug, Clone)]
 pub struct Classifier {
+    /// The model file (forest, classes, features, domain, training summary).
     pub model: ModelFile,
+    /// The settings the model's features were made with (`analyse` must use them).
     pub settings: PipelineSettings,
     /// "built-in" or the model's path.
     pub name: String,
@@ -427,10 +432,13 @@ pub const NO_ROTOR_CLASSES: [&str; 2] = ["bird", BACKGROUND_CLASS];
 /// One track's classification.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Prediction {
+    /// The most probable class, or `unknown` under the minimum confidence.
     pub label: String,
+    /// The largest class probability.
     pub confidence: f64,
     /// Features outside the model's training domain (each lowers the confidence).
     pub off_domain: usize,
+    /// Every class's probability (calibrated, after the domain check).
     pub probabilities: BTreeMap<String, f64>,
 }
 

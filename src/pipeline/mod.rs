@@ -77,9 +77,11 @@ pub struct RecordingAnalysis {
     pub meta: RecordingMeta,
     /// Tracks in start order.
     pub tracks: Vec<AnalysedTrack>,
-    /// Pass-one statistics.
+    /// Pass-one statistics: CPIs processed,
     pub cpis: usize,
+    /// CFAR detections on the cancelled maps,
     pub cfar_detections: usize,
+    /// and detections inside the canceller notch (clutter-map CFAR and micro-Doppler).
     pub notch_detections: usize,
 }
 

@@ -23,7 +23,7 @@ pub struct RecordingOptions {
 /// Options of the detection path (defaults work on both waveforms without tuning).
 #[derive(clap::Args, Debug, Clone, PartialEq)]
 pub struct DetectOptions {
-    // the channel (a plain comment: clap reads none on a flattened group)
+    /// The channel.
     #[command(flatten)]
     pub recording: RecordingOptions,
     /// Chirps per coherent processing interval (Doppler FFT length); 0 = automatic

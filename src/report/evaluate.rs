@@ -14,10 +14,14 @@ use crate::model::{FalseAlarms, Scores};
 /// and the false-alarm report.
 #[derive(Debug, Clone, Serialize)]
 pub struct Evaluation {
+    /// Target-level scores (each annotation one sample).
     #[serde(flatten)]
     pub scores: Scores,
+    /// Annotations scored,
     pub targets: usize,
+    /// of which matched by at least one track.
     pub targets_detected: usize,
+    /// Tracks matching no annotation.
     pub tracks_unmatched: usize,
     /// Scores over tracks (each track one sample): the matched ones, and the false tracks
     /// with their background class.

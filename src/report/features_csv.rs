@@ -35,9 +35,13 @@ pub const TARGET_SEPARATOR: char = ';';
 /// One track of a feature table.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TableTrack {
+    /// The track's id (as `detect` prints it).
     pub id: usize,
+    /// Start and end, s from the recording's first chirp.
     pub start_s: f64,
+    /// See `start_s`.
     pub end_s: f64,
+    /// Median range, m.
     pub range_m: f64,
     /// Index of the matched annotation in the recording's annotations, if any.
     pub annotation: Option<usize>,
@@ -54,6 +58,7 @@ pub struct RecordingTable {
     pub recording: String,
     /// The radar, as leave-one-radar-out groups recordings (`pipeline::classify::radar_key`).
     pub radar: String,
+    /// The recording's duration, s.
     pub duration_s: f64,
     /// `rotorsift:labels_complete`.
     pub labels_complete: bool,
@@ -61,6 +66,7 @@ pub struct RecordingTable {
     pub targets: Vec<String>,
     /// Fingerprint of the settings (and channel) the features were made with.
     pub settings: String,
+    /// Its tracks, in start order.
     pub tracks: Vec<TableTrack>,
 }
 

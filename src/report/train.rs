@@ -10,16 +10,23 @@ use crate::model::{RadarCrossValidation, Scores};
 /// What `train` measured and made.
 #[derive(Debug, Clone, Serialize)]
 pub struct TrainReport {
+    /// The classes learnt, sorted by name.
     pub classes: Vec<String>,
+    /// Tracks the held-out score's forest was fitted on,
     pub train_tracks: usize,
+    /// and tracks it was scored on.
     pub test_tracks: usize,
+    /// Recordings fitted on,
     pub train_recordings: usize,
+    /// and the recordings held out.
     pub test_recordings: Vec<String>,
+    /// Tracks left out for matching no annotation.
     pub tracks_unmatched: usize,
     /// Track-level scores on the held-out recordings.
     pub heldout: Scores,
     /// Feature importances (mean decrease in impurity), largest first.
     pub importances: Vec<(String, f64)>,
+    /// Out-of-bag accuracy of the forest fitted on everything.
     pub oob_accuracy: f64,
     /// Track-level scores of a grouped k-fold cross-validation (every recording held out
     /// once), when asked for.
