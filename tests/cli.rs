@@ -874,9 +874,9 @@ fn stationary_return_alone_or_without_phase_align_is_not_tracked() {
     }
 }
 
-/// A strong stationary return beside a hovering rotorcraft is never tracked (zero Doppler,
-/// constant phase: cancelled by the MTI filter, Richards 2014). Without the hovering
-/// rotorcraft, or with `--phase-align off`, it is not; with both it is on half the seeds.
+/// A strong stationary return (10 dBsm at 25 m) beside a hovering rotorcraft is never
+/// tracked (zero Doppler, constant phase: cancelled by the MTI filter, Richards 2014): on
+/// each of seeds 1 to 6 no track lies within two range cells of it.
 #[test]
 fn stationary_return_beside_hovering_rotorcraft_is_not_tracked() {
     let tmp = tempfile::tempdir().unwrap();
@@ -1066,7 +1066,40 @@ fn train_then_classify_and_evaluate() {
         "0.999",
     ]));
     check_evaluate(&v, 8);
+
+    // Held out: the same eight runs simulated with seeds 101 and 102 (other noise, blade
+    // phases, wingbeat phases and foliage motion; the model never saw them), scored with
+    // `evaluate`. Measured: 0.938 (15 of 16 targets); the bound allows two more misses.
+    let mut held = Vec::new();
+    for seed in [101u64, 102] {
+        held.extend(simulate(
+            dir,
+            "held",
+            &training_scene(),
+            &format!("held-{seed}"),
+            Some(seed),
+        ));
+    }
+    assert_eq!(held.len(), 16);
+    let mut args = vec!["evaluate", "--model", model_s, "--format", "json"];
+    let held_s: Vec<&str> = held.iter().map(|p| p.to_str().unwrap()).collect();
+    args.extend(held_s.iter().copied());
+    let v = ok_json(&run(&args));
+    check_evaluate(&v, 16);
+    let acc = num(&v, "accuracy");
+    eprintln!(
+        "held-out accuracy {acc:.3} over {} of 16 targets",
+        v["targets_detected"]
+    );
+    assert!(
+        acc >= HELD_OUT_MIN_ACCURACY,
+        "held-out accuracy {acc:.3} below {HELD_OUT_MIN_ACCURACY}: {}",
+        v["confusion"]
+    );
 }
+
+/// Least held-out accuracy of the small model in `train_then_classify_and_evaluate`.
+const HELD_OUT_MIN_ACCURACY: f64 = 0.8;
 
 /// docs/output-format.md "evaluate --format json": keys, a square confusion matrix in the order of
 /// `classes` summing to targets_detected, accuracy = trace / total, per-class precision,
@@ -1213,7 +1246,8 @@ fn bad_model_files_are_refused() {
 
 /// `classify` without `--model` uses the built-in model (models/default.json, embedded at
 /// build time): exit 0, a `label` column, a label from the built-in vocabulary
-/// (docs/recording-format.md: rotorcraft, bird, clutter).
+/// (docs/recording-format.md: rotorcraft, bird, clutter) on every row, and the scene's one
+/// object, a receding quadrotor, labelled `rotorcraft` on the track at its range.
 #[test]
 fn classify_with_builtin_model() {
     let tmp = tempfile::tempdir().unwrap();
@@ -1246,6 +1280,17 @@ fn classify_with_builtin_model() {
         &["classify", rec.to_str().unwrap(), "--format", "json"],
     ));
     assert_eq!(v["model"], "built-in");
+    // The quadrotor flies from 40 m to 44.8 m; its track (the longest within that span
+    // and a few cells) must be labelled rotorcraft.
+    let tracks = v["recordings"][0]["tracks"].as_array().unwrap();
+    let quad = tracks
+        .iter()
+        .filter(|t| (38.0..=47.0).contains(&num(t, "range_m")))
+        .max_by(|a, b| {
+            (num(a, "end_s") - num(a, "start_s")).total_cmp(&(num(b, "end_s") - num(b, "start_s")))
+        })
+        .unwrap_or_else(|| panic!("no track at the quadrotor's range: {v}"));
+    assert_eq!(quad["label"], "rotorcraft", "{quad}");
 }
 
 // ---------------------------------------------------------------------------------------
@@ -1478,6 +1523,22 @@ fn audit_writes_an_index_with_its_pictures() {
         pictures += 1;
     }
     assert!(pictures >= 2, "no pictures in the audit page");
+    // Every track is listed: one data-track element per track `detect` finds.
+    let tracks = ok_json(&run(&[
+        "detect",
+        meta.to_str().unwrap(),
+        "--format",
+        "json",
+    ]))["recordings"][0]["tracks"]
+        .as_array()
+        .unwrap()
+        .len();
+    assert!(tracks >= 1, "no track in the hover scene");
+    assert_eq!(
+        html.matches("data-track=\"").count(),
+        tracks,
+        "audit lists a different number of tracks than detect finds"
+    );
     let o = run(&[
         "audit",
         meta.to_str().unwrap(),
