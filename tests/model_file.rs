@@ -168,7 +168,11 @@ fn save_over_the_same_path_replaces_the_file_by_rename() {
 
     second.save(&path).unwrap();
 
-    assert_eq!(ModelFile::load(&path).unwrap(), second, "the path holds the second model");
+    assert_eq!(
+        ModelFile::load(&path).unwrap(),
+        second,
+        "the path holds the second model"
+    );
     assert_ne!(
         std::fs::metadata(&path).unwrap().ino(),
         old_inode,
@@ -176,10 +180,17 @@ fn save_over_the_same_path_replaces_the_file_by_rename() {
     );
     let mut through_old = String::new();
     old.read_to_string(&mut through_old).unwrap();
-    assert_eq!(through_old, first_text, "the first file was changed in place");
+    assert_eq!(
+        through_old, first_text,
+        "the first file was changed in place"
+    );
     let names: Vec<_> = std::fs::read_dir(dir.path())
         .unwrap()
         .map(|e| e.unwrap().file_name())
         .collect();
-    assert_eq!(names, vec![std::ffi::OsString::from("m.json")], "temporaries left");
+    assert_eq!(
+        names,
+        vec![std::ffi::OsString::from("m.json")],
+        "temporaries left"
+    );
 }

@@ -127,9 +127,7 @@ fn held_out_accuracy_matches_scikit_learn() {
 fn held_out_accuracy_matches_smartcore() {
     let (data, train, test, _) = demo_split();
     let rows = |idx: &[usize]| -> Vec<Vec<f64>> {
-        idx.iter()
-            .map(|&i| data.features.row(i).to_vec())
-            .collect()
+        idx.iter().map(|&i| data.features.row(i).to_vec()).collect()
     };
     let x_train = DenseMatrix::from_2d_vec(&rows(&train)).unwrap();
     let x_test = DenseMatrix::from_2d_vec(&rows(&test)).unwrap();
