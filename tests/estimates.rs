@@ -18,9 +18,12 @@
 //! radar equation, Mahafza Eq. 1.56, with the time-averaged power of the blades): by
 //! Parseval's theorem a band's share of the spectrum is its share of the power whatever
 //! the Doppler spread, so the feature equals the blade SNR less the blades' power within
-//! 20 m/s of the hub (2-5 dB for tips of 40-80 m/s, measured: 20 of 20 within), never more. Checked:
-//! truth minus feature within -1..6 dB for at least 80% of the rotorcraft with blade SNR
-//! >= 15 dB.
+//! 20 m/s of the hub (2-5 dB for tips of 40-80 m/s), never more. Checked:
+//! truth minus feature within -1..6 dB for at least 90% of the rotorcraft with blade SNR
+//! >= 15 dB (measured: 17 of 17; the bound allows one miss).
+//!
+//! Bounds against the measured figures: flash 80% (16 of 19 needed, as measured: no
+//! margin), tip 70% of 4 (3, as measured), wrapped tips 85% (12 of 14; measured 13).
 
 use std::path::Path;
 
@@ -127,12 +130,12 @@ fn blade_flash_rate_and_tip_speed_match_the_truth() {
     );
     assert!(median_tip <= 0.05, "median tip error {median_tip:.3}");
     assert!(
-        wrap_n >= 8 && wrap_ok as f64 >= 0.8 * wrap_n as f64,
+        wrap_n >= 8 && wrap_ok as f64 >= 0.85 * wrap_n as f64,
         "tips beyond the unambiguous speed reported as it: {wrap_ok}/{wrap_n}"
     );
     eprintln!("fast band within -1..6 dB of the blade SNR: {band_ok}/{band_n}");
     assert!(
-        band_n >= 10 && band_ok as f64 >= 0.8 * band_n as f64,
+        band_n >= 10 && band_ok as f64 >= 0.9 * band_n as f64,
         "fast band within -1..6 dB of the blade SNR: {band_ok}/{band_n}"
     );
 }
