@@ -16,6 +16,18 @@ use std::path::{Path, PathBuf};
 use common::*;
 use serde_json::Value;
 
+/// `rotorsift adopt INPUT --radar RADAR --out OUT`.
+fn adopt(input: &Path, radar: &Path, out: &Path) -> std::process::Output {
+    run(&[
+        "adopt",
+        input.to_str().unwrap(),
+        "--radar",
+        radar.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ])
+}
+
 fn demo(name: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("labelled-demo/recordings")
@@ -58,14 +70,7 @@ fn without_paths(mut v: Value) -> Value {
 }
 
 fn adopt_ok(input: &Path, radar: &Path, out: &Path) -> PathBuf {
-    let o = run(&[
-        "adopt",
-        input.to_str().unwrap(),
-        "--radar",
-        radar.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let o = adopt(input, radar, out);
     let text = ok(&o);
     let p = PathBuf::from(text.trim());
     assert!(p.is_file(), "adopt printed {}", p.display());
@@ -180,14 +185,7 @@ fn raw_iq_file_adopts_with_the_radar_file() {
     std::fs::copy(data_of(&rec), &raw).unwrap();
     let radar = k24_radar_file(dir, "site = \"test bench (fictional)\"\n");
     let out = dir.join("adopted");
-    let o = run(&[
-        "adopt",
-        raw.to_str().unwrap(),
-        "--radar",
-        radar.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let o = adopt(&raw, &radar, &out);
     let meta = PathBuf::from(ok(&o).trim());
     assert_eq!(meta, out.join("capture.sigmf-meta"));
     assert!(stderr(&o).contains("linked"), "{}", stderr(&o));
@@ -254,14 +252,7 @@ fn conflicts_bad_sizes_and_bad_radar_files_are_refused_writing_nothing() {
             ),
     )
     .unwrap();
-    let o = run(&[
-        "adopt",
-        plain.to_str().unwrap(),
-        "--radar",
-        conflict.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let o = adopt(&plain, &conflict, &out);
     assert_one_error(&o, 1, &["sample_rate_hz", "core:sample_rate", "4000000"]);
     no_outputs(&out);
 
@@ -270,14 +261,7 @@ fn conflicts_bad_sizes_and_bad_radar_files_are_refused_writing_nothing() {
     bytes.extend_from_slice(&[0, 0, 0, 0]); // one sample more than whole chirps
     std::fs::write(&raw, &bytes).unwrap();
     let radar = k24_radar_file(dir, "");
-    let o = run(&[
-        "adopt",
-        raw.to_str().unwrap(),
-        "--radar",
-        radar.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let o = adopt(&raw, &radar, &out);
     let per_chirp = (K24_N * 4).to_string();
     assert_one_error(
         &o,
@@ -296,14 +280,7 @@ fn conflicts_bad_sizes_and_bad_radar_files_are_refused_writing_nothing() {
         "unknown.toml",
         "waveform = \"fmcw-beat\"\nchirp_rate = 3\n",
     );
-    let o = run(&[
-        "adopt",
-        plain.to_str().unwrap(),
-        "--radar",
-        unknown.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let o = adopt(&plain, &unknown, &out);
     assert_one_error(&o, 1, &["unknown.toml", "chirp_rate"]);
     no_outputs(&out);
 
@@ -314,14 +291,7 @@ fn conflicts_bad_sizes_and_bad_radar_files_are_refused_writing_nothing() {
     );
     let raw_ok = dir.join("whole.iq");
     std::fs::copy(data_of(&rec), &raw_ok).unwrap();
-    let o = run(&[
-        "adopt",
-        raw_ok.to_str().unwrap(),
-        "--radar",
-        bare.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let o = adopt(&raw_ok, &bare, &out);
     assert_one_error(&o, 1, &["bare.toml", "datatype"]);
     no_outputs(&out);
 
@@ -336,14 +306,7 @@ fn conflicts_bad_sizes_and_bad_radar_files_are_refused_writing_nothing() {
             .collect::<Vec<_>>()
             .join("\n"),
     );
-    let o = run(&[
-        "adopt",
-        raw_ok.to_str().unwrap(),
-        "--radar",
-        lacking.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let o = adopt(&raw_ok, &lacking, &out);
     assert_one_error(&o, 1, &["rotorsift:sweep_duration_s"]);
     no_outputs(&out);
 }
