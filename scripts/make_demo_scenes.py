@@ -297,6 +297,13 @@ def write_scene(path, name, radar_key, radar, desc, seed, objects, site=SITE,
 PLAN = ["rotorcraft", "rotorcraft", "rotorcraft", "rotorcraft", "rotorcraft", "rotorcraft",
         "bird", "bird", "bird", "mixed", "mixed", "clutter", "background", "background"]
 HOLD_OUT_PLAN = ["mixed", "rotorcraft", "mixed", "background", "bird", "rotorcraft"]
+# A second batch of training runs per training radar (numbered on from PLAN, drawn from its
+# own seed so the first batch and the hold-out runs stay as they were): every motion of
+# birds alone and beside a rotorcraft (crossing birds, whose radial velocity stays near
+# zero, were rare in the first batch), more rotorcraft motions, clutter and background,
+# each run at its own sensitivity.
+MORE_PLAN = ["bird", "bird", "bird", "bird", "mixed", "mixed", "mixed", "mixed",
+             "rotorcraft", "rotorcraft", "rotorcraft", "rotorcraft", "clutter", "background"]
 
 
 def make_run(rng, key, radar, i, kind, count):
@@ -383,6 +390,28 @@ def main():
                    "background": "background"}[kind]
             prefix = "run" if radar["role"] == "train" else "holdout"
             name = "%s-%s-%02d-%s" % (prefix, key, i, tag)
+            write_scene(os.path.join(out, name + ".toml"), name, key, radar, "; ".join(desc),
+                        1000 + count, objs, table=table)
+    rng = random.Random(20261204)
+    for key, radar in RADARS.items():
+        if radar["role"] != "train":
+            continue
+        radar = dict(radar)
+        base_snr = radar["snr"]
+        for j, kind in enumerate(MORE_PLAN):
+            i = len(PLAN) + j
+            # the sensitivity varies run by run, -4 to +26 dB about the radar's own: real
+            # radars and ranges span far more than one family's design point, and a near
+            # bird on a sensitive radar is 30-40 dB stronger than any bird of the first batch
+            radar["snr"] = base_snr + rng.uniform(-4.0, 26.0)
+            radar["table"] = table_of(key, radar)
+            radar["duration"] = 4.0 if kind == "background" else 2.0
+            objs, desc, clean = make_run(rng, key, radar, i, kind, count)
+            table = finish_table(rng, radar, objs, clean)
+            count += 1
+            tag = {"rotorcraft": "uav", "bird": "bird", "mixed": "mixed", "clutter": "clutter",
+                   "background": "background"}[kind]
+            name = "run-%s-%02d-%s" % (key, i, tag)
             write_scene(os.path.join(out, name + ".toml"), name, key, radar, "; ".join(desc),
                         1000 + count, objs, table=table)
     print("wrote %d scene files to %s" % (count, out))

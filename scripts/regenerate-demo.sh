@@ -2,7 +2,7 @@
 # Regenerates labelled-demo recordings, bit for bit, from labelled-demo/scenes/*.toml with
 # the release build: `rotorsift simulate --scene F --out DIR` for each scene file.
 # Usage: scripts/regenerate-demo.sh [OUT_DIR] [GLOB]
-#   OUT_DIR  default target/demo-recordings (all 152 runs take 2.5 GB)
+#   OUT_DIR  default target/demo-recordings (all 292 runs take 4.9 GB)
 #   GLOB     scene names to regenerate, default '*' (e.g. 'holdout-*', 'run-*')
 set -euo pipefail
 root="$(cd "$(dirname "$0")/.." && pwd)"

@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # Regenerates every file under tests/reference/ that rotorsift itself writes, and the peer
 # figures computed from them:
-#   tests/reference/demo_features.csv   `rotorsift features` over all 152 demo recordings
+#   tests/reference/demo_features.csv   `rotorsift features` over all 292 demo recordings
 #                                       (simulated bit for bit by regenerate-demo.sh; the
 #                                       recording column holds the bare file names)
 #   tests/reference/forest_peer_demo.json  tests/reference/forest_peer.py on that CSV

@@ -1,6 +1,6 @@
 #!/usr/bin/env bash
 # Trains the built-in model models/default.json on the demo's training runs (run-*: ten
-# radars). The hold-out runs (holdout-*: two radars the model never sees, four of them
+# radars, 28 runs each). The hold-out runs (holdout-*: two radars the model never sees, four of them
 # shipped in labelled-demo/recordings) are left out, so `classify`/`evaluate` on the shipped
 # demo show a held-out result. Regenerates the training recordings (bit for bit, from
 # labelled-demo/scenes) when missing. Rebuild afterwards: the model is embedded in the binary.

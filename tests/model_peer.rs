@@ -1,6 +1,6 @@
 //! Peer checks of the ensemble against two outside random forests, on the demo's exported
 //! feature CSV (tests/reference/demo_features.csv, written by `rotorsift features` over the
-//! 152 demo recordings; scripts/regenerate-references.sh remakes it) and the same
+//! 292 demo recordings; scripts/regenerate-references.sh remakes it) and the same
 //! recording-grouped split (scikit-learn GroupShuffleSplit, test_size 0.3, random_state 7;
 //! its test recordings are stored, so both sides use the same rows):
 //!

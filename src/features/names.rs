@@ -56,6 +56,11 @@ features! {
     NotchShare = "notch_share", "1", "share of the track's CPIs found only by the micro-Doppler detector (body in the canceller notch)";
     FastBandSnr = "fast_band_snr_db", "dB", "power more than 20 m/s from the body line (blade speeds), over the noise of a reference gate, referred to a 256-chirp CPI (floor -5 dB)";
     SlowBandSnr = "slow_band_snr_db", "dB", "the same for 2-20 m/s from the body line (wings, limbs, foliage)";
+    FastBandEvidence = "fast_band_evidence_db", "dB", "the fast band's excess power integrated over the whole analysed track, over the standard deviation of that sum in noise alone (energy-detector deflection; floor -10 dB): grows with track length";
+    SlowBandEvidence = "slow_band_evidence_db", "dB", "the same for the slow band (2-20 m/s): wingbeats and limbs integrated over the track";
+    ExtentShare = "md_extent_share", "1", "md_extent_mps over the unambiguous speed lambda / (4T): 1 when the spread fills the unambiguous span (the blade tips wrap)";
+    FastSlowRatio = "fast_slow_ratio_db", "dB", "fast_band_snr_db minus slow_band_snr_db: how the power away from the body splits between blade speeds and wing or limb speeds, whatever the SNR";
+    OuterShare = "outer_excess_share", "1", "excess power per bin in the outer half of the unambiguous span (offsets beyond half of lambda / (4T)) over that of the inner half, body and clutter lines left out: near 1 when wrapped blade energy covers the span evenly, near 0 when the spread stays near the body";
 }
 
 /// Features whose value depends on the radar that measured them, not only on the target:
@@ -84,6 +89,11 @@ pub const RADAR_DEPENDENT: &[&str] = &[
     "cadence_high_strength_db",
     "fast_band_snr_db",
     "slow_band_snr_db",
+    "fast_band_evidence_db",
+    "slow_band_evidence_db",
+    "md_extent_share",
+    "outer_excess_share",
+    "fast_slow_ratio_db",
 ];
 
 /// Whether feature `name` means the same on every radar (see [`RADAR_DEPENDENT`]).
