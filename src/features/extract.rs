@@ -975,7 +975,9 @@ mod tests {
     fn evidence(ex: &mut Extractor, x: &[Complex32], seed: u64) -> f64 {
         let r1 = random_complex(x.len(), seed + 1_000_000);
         let r2 = random_complex(x.len(), seed + 2_000_000);
-        let (v, _) = ex.extract(x, &[&r1, &r2], &kin(x.len() as f64 / PRF)).unwrap();
+        let (v, _) = ex
+            .extract(x, &[&r1, &r2], &kin(x.len() as f64 / PRF))
+            .unwrap();
         v[FeatureId::FastBandEvidence as usize]
     }
 
@@ -1026,7 +1028,10 @@ mod tests {
         };
         let short = mean_evidence(&mut ex, 1.0);
         let long = mean_evidence(&mut ex, 4.0);
-        assert!(short > 5.0, "a -6 dB wideband return over 1 s: {short:.1} dB");
+        assert!(
+            short > 5.0,
+            "a -6 dB wideband return over 1 s: {short:.1} dB"
+        );
         let gain = long - short;
         eprintln!("evidence 1 s {short:.2} dB, 4 s {long:.2} dB");
         assert!((1.5..=4.5).contains(&gain), "4x the length: +{gain:.2} dB");
