@@ -161,6 +161,16 @@ const HANN_FRAME_VARIANCE: f64 = 1.33;
 /// Floor of the evidence features, dB (a deflection of 0.1 standard deviations).
 const EVIDENCE_FLOOR_DB: f64 = -10.0;
 
+/// Signed index of bin `i` of an `n`-point spectrum in natural order (bins above n/2 are
+/// negative frequencies).
+fn signed_bin(i: usize, n: usize) -> f64 {
+    if i <= n / 2 {
+        i as f64
+    } else {
+        i as f64 - n as f64
+    }
+}
+
 /// Power-of-two sample count nearest (in log) to `seconds * rate`, clamped to [lo, hi].
 fn pow2_len(seconds: f64, rate: f64, lo: usize, hi: usize) -> usize {
     crate::stats::nearest_power_of_two(seconds * rate, lo, hi)
@@ -403,15 +413,7 @@ impl Extractor {
     fn md_extent(&self, lm: &[f64], lframes: usize, noise_l: f64, body_velocity_mps: f64) -> f64 {
         let nl = lm.len();
         let dvl = self.prf / nl as f64 * self.lambda / 2.0;
-        let vl = |i: usize| {
-            // natural order: bins above nl/2 are negative
-            let k = if i <= nl / 2 {
-                i as f64
-            } else {
-                i as f64 - nl as f64
-            };
-            k * dvl
-        };
+        let vl = |i: usize| signed_bin(i, nl) * dvl;
         let w = (nl / EXTENT_SMOOTH_DIVISOR).max(1);
         let smooth: Vec<f64> = (0..nl)
             .map(|d| {
@@ -489,12 +491,7 @@ impl Extractor {
         // Band of every bin: 0 body or clutter line, 1 slow, 2 fast.
         let band: Vec<u8> = (0..nl)
             .map(|i| {
-                let k = if i <= nl / 2 {
-                    i as f64
-                } else {
-                    i as f64 - nl as f64
-                };
-                let vel = k * dvl;
+                let vel = signed_bin(i, nl) * dvl;
                 if vel.abs() <= BAND_BODY || (vel - v_clutter).abs() <= BAND_BODY {
                     0
                 } else if vel.abs() < fast_edge {
@@ -572,13 +569,8 @@ impl Extractor {
             if b == 0 {
                 continue;
             }
-            let k = if i <= nl / 2 {
-                i as f64
-            } else {
-                i as f64 - nl as f64
-            };
             let e = (p - noise_bin).max(0.0);
-            if (k * dvl).abs() > 0.5 * vmax {
+            if (signed_bin(i, nl) * dvl).abs() > 0.5 * vmax {
                 outer += e;
                 n_out += 1;
             } else {
