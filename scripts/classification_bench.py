@@ -2,9 +2,10 @@
 """Per-radar classification figures of `rotorsift classify --format json` against the
 recordings' labels: the project's classification benchmark table.
 
-Usage: python3 scripts/classification_bench.py NAME=labels.json [NAME=labels.json ...] [--json]
+Usage: python3 scripts/classification_bench.py NAME=labels.json[,more.json] [NAME=...] [--json]
 
-Each NAME (say "site" or "builtin") is one way of labelling the same held-out recordings.
+Each NAME (say "site" or "builtin") is one way of labelling the same held-out recordings,
+from one or more `classify` outputs (comma-separated, pooled).
 Recordings are grouped by radar: the second '-' field of the name (bench-RADAR-NN-kind).
 Targets, their tracks and their predicted class as scripts/classification_report.py
 (duration-weighted mean of the matching tracks' probabilities); "clear" as
@@ -29,38 +30,14 @@ import sys
 from collections import defaultdict
 
 sys.path.insert(0, __file__.rsplit("/", 1)[0])
-from detection_bench import matches, radar_of  # noqa: E402
-from detection_report import cell_of, clear  # noqa: E402
+import classification_report  # noqa: E402
+from detection_bench import radar_of  # noqa: E402
 
 
 def targets(doc):
-    for rec in doc["recordings"]:
-        name = rec["path"].split("/")[-1].replace(".sigmf-meta", "")
-        meta = json.load(open(rec["path"]))
-        g = meta["global"]
-        n, t = g["rotorsift:samples_per_chirp"], g["rotorsift:chirp_interval_s"]
-        cell = cell_of(meta)
-        for a in meta.get("annotations", []):
-            tracks = [tr for tr in rec["tracks"] if matches(tr, a, n, t, cell)]
-            probs, weight = defaultdict(float), 0.0
-            for tr in tracks:
-                dur = tr["end_s"] - tr["start_s"]
-                for k, p in tr.get("probabilities", {}).items():
-                    probs[k] += p * dur
-                weight += dur
-            pred = max(probs, key=probs.get) if weight > 0 else None
-            truth = a.get("rotorsift:truth", {})
-            rate = None
-            with_rate = [tr for tr in tracks if tr.get("blade_flash_hz")]
-            if with_rate:
-                longest = max(with_rate, key=lambda tr: tr["end_s"] - tr["start_s"])
-                rate = longest["blade_flash_hz"]
-            label = a["core:label"]
-            snr = truth.get("blade_snr_db" if truth.get("hovering") else "body_snr_db")
-            yield dict(radar=radar_of(name), key=(name, a.get("rotorsift:target_id")),
-                       label=label, pred=pred, detected=bool(tracks),
-                       clear=clear(label, truth), hovering=bool(truth.get("hovering")),
-                       rate=rate, true_rate=truth.get("blade_flash_hz"), snr=snr)
+    for r in classification_report.targets(doc):
+        name = r["rec"].replace(".sigmf-meta", "")
+        yield dict(r, radar=radar_of(name), key=(name, r["id"]))
 
 
 def share(xs, f):
@@ -117,8 +94,8 @@ ROWS = [("clear rotorcraft recall", "clear_rotorcraft_recall", "clear_rotorcraft
 def main(args, as_json):
     out = defaultdict(dict)
     for arg in args:
-        name, path = arg.split("=", 1)
-        rows = list(targets(json.load(open(path))))
+        name, paths = arg.split("=", 1)
+        rows = [r for p in paths.split(",") for r in targets(json.load(open(p)))]
         for radar in sorted({r["radar"] for r in rows}):
             out[radar][name] = figures([r for r in rows if r["radar"] == radar])
         out["all"][name] = figures(rows)

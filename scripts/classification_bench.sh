@@ -40,13 +40,6 @@ for r in $radars; do
     --format json --quiet >"$out/site-$r.json.labels"
   parts+=("$out/site-$r.json.labels")
 done
-python3 - "${parts[@]}" >"$out/site.json" <<'PY'
-import json, sys
-docs = [json.load(open(p)) for p in sys.argv[1:]]
-doc = docs[0]
-for d in docs[1:]:
-    doc["recordings"] += d["recordings"]
-print(json.dumps(doc))
-PY
-python3 scripts/classification_bench.py site="$out/site.json" builtin="$out/builtin.json" \
+site=$(IFS=,; echo "${parts[*]}")
+python3 scripts/classification_bench.py site="$site" builtin="$out/builtin.json" \
   | tee "$out/table.md"

@@ -17,32 +17,39 @@ import sys
 from collections import Counter, defaultdict
 
 sys.path.insert(0, __file__.rsplit("/", 1)[0])
+from detection_bench import matches  # noqa: E402
 from detection_report import cell_of, clear  # noqa: E402
 
 
 def targets(doc):
+    """Every annotation of the recordings of `doc` as a target: its label, the predicted
+    class of its matching tracks (None when no track matches), whether it is clear, and
+    what the bench scripts read off it (rotor rate of the longest track with one, the
+    truth's rate and SNR)."""
     for rec in doc["recordings"]:
         meta = json.load(open(rec["path"]))
         g = meta["global"]
         n, t = g["rotorsift:samples_per_chirp"], g["rotorsift:chirp_interval_s"]
         cell = cell_of(meta)
         for a in meta.get("annotations", []):
-            a0 = a["core:sample_start"] // n * t
-            a1 = a0 + a["core:sample_count"] // n * t
+            tracks = [tr for tr in rec["tracks"] if matches(tr, a, n, t, cell)]
             probs, weight = defaultdict(float), 0.0
-            for tr in rec["tracks"]:
+            for tr in tracks:
                 dur = tr["end_s"] - tr["start_s"]
-                ov = max(0.0, min(tr["end_s"], a1) - max(tr["start_s"], a0))
-                r = tr["range_m"]
-                if ov >= 0.5 * dur and a["rotorsift:range_min_m"] - cell <= r <= a["rotorsift:range_max_m"] + cell:
-                    for k, p in tr["probabilities"].items():
-                        probs[k] += p * dur
-                    weight += dur
+                for k, p in tr.get("probabilities", {}).items():
+                    probs[k] += p * dur
+                weight += dur
             truth = a.get("rotorsift:truth", {})
             label = a["core:label"]
             pred = max(probs, key=probs.get) if weight > 0 else None
+            with_rate = [tr for tr in tracks if tr.get("blade_flash_hz")]
+            rate = (max(with_rate, key=lambda tr: tr["end_s"] - tr["start_s"])["blade_flash_hz"]
+                    if with_rate else None)
             yield dict(rec=rec["path"].split("/")[-1], id=a.get("rotorsift:target_id"), label=label,
-                       pred=pred, clear=clear(label, truth), hovering=bool(truth.get("hovering")))
+                       pred=pred, detected=bool(tracks), clear=clear(label, truth),
+                       hovering=bool(truth.get("hovering")), rate=rate,
+                       true_rate=truth.get("blade_flash_hz"),
+                       snr=truth.get("blade_snr_db" if truth.get("hovering") else "body_snr_db"))
 
 
 def main(paths):

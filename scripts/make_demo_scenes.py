@@ -366,6 +366,21 @@ def make_run(rng, key, radar, i, kind, count):
     return objs, desc, clean
 
 
+TAGS = {"rotorcraft": "uav", "bird": "bird", "mixed": "mixed", "clutter": "clutter",
+        "background": "background"}
+
+
+def emit_run(out, rng, key, radar, i, kind, count, prefix, short):
+    """Draws run i of `kind` on `radar` (`short` s long, background runs twice that) and
+    writes its scene file."""
+    radar["duration"] = 2 * short if kind == "background" else short
+    objs, desc, clean = make_run(rng, key, radar, i, kind, count)
+    table = finish_table(rng, radar, objs, clean)
+    name = "%s-%s-%02d-%s" % (prefix, key, i, TAGS[kind])
+    write_scene(os.path.join(out, name + ".toml"), name, key, radar, "; ".join(desc),
+                1000 + count + 1, objs, table=table)
+
+
 def main():
     out = sys.argv[1] if len(sys.argv) > 1 else os.path.join(
         os.path.dirname(os.path.abspath(__file__)), "..", "labelled-demo", "scenes")
@@ -378,20 +393,12 @@ def main():
     for key, radar in RADARS.items():
         radar = dict(radar)
         radar["table"] = table_of(key, radar)
-        plan = PLAN if radar["role"] == "train" else HOLD_OUT_PLAN
-        for i, kind in enumerate(plan):
+        train = radar["role"] == "train"
+        for i, kind in enumerate(PLAN if train else HOLD_OUT_PLAN):
             # hold-out runs are 1.5 s: they are the shipped recordings (under 8 MiB)
-            short = 1.5 if radar["role"] == "hold-out" else 2.0
-            radar["duration"] = 2 * short if kind == "background" else short
-            objs, desc, clean = make_run(rng, key, radar, i, kind, count)
-            table = finish_table(rng, radar, objs, clean)
+            emit_run(out, rng, key, radar, i, kind, count, "run" if train else "holdout",
+                     2.0 if train else 1.5)
             count += 1
-            tag = {"rotorcraft": "uav", "bird": "bird", "mixed": "mixed", "clutter": "clutter",
-                   "background": "background"}[kind]
-            prefix = "run" if radar["role"] == "train" else "holdout"
-            name = "%s-%s-%02d-%s" % (prefix, key, i, tag)
-            write_scene(os.path.join(out, name + ".toml"), name, key, radar, "; ".join(desc),
-                        1000 + count, objs, table=table)
     rng = random.Random(20261204)
     for key, radar in RADARS.items():
         if radar["role"] != "train":
@@ -399,21 +406,13 @@ def main():
         radar = dict(radar)
         base_snr = radar["snr"]
         for j, kind in enumerate(MORE_PLAN):
-            i = len(PLAN) + j
             # the sensitivity varies run by run, -4 to +26 dB about the radar's own: real
             # radars and ranges span far more than one family's design point, and a near
             # bird on a sensitive radar is 30-40 dB stronger than any bird of the first batch
             radar["snr"] = base_snr + rng.uniform(-4.0, 26.0)
             radar["table"] = table_of(key, radar)
-            radar["duration"] = 4.0 if kind == "background" else 2.0
-            objs, desc, clean = make_run(rng, key, radar, i, kind, count)
-            table = finish_table(rng, radar, objs, clean)
+            emit_run(out, rng, key, radar, len(PLAN) + j, kind, count, "run", 2.0)
             count += 1
-            tag = {"rotorcraft": "uav", "bird": "bird", "mixed": "mixed", "clutter": "clutter",
-                   "background": "background"}[kind]
-            name = "run-%s-%02d-%s" % (key, i, tag)
-            write_scene(os.path.join(out, name + ".toml"), name, key, radar, "; ".join(desc),
-                        1000 + count, objs, table=table)
     print("wrote %d scene files to %s" % (count, out))
 
 
