@@ -61,14 +61,21 @@ pub fn median_of_keys_in_band(keys: &mut [i32], lo: i32, hi: i32, band: &mut Vec
     }
     let upper = n / 2;
     let lower = if n % 2 == 0 { upper - 1 } else { upper };
-    let mut below = 0usize;
-    band.clear();
-    for &k in keys.iter() {
-        below += usize::from(k < lo);
-        if k >= lo && k < hi {
-            band.push(k);
+    // Branch-free: every key is written at the band's end, which only advances for keys
+    // inside it (an unsigned compare of the offset from `lo` tests lo <= k < hi).
+    if band.len() < n {
+        band.resize(n, 0);
+    }
+    let width = hi.wrapping_sub(lo) as u32;
+    let (mut below, mut inside) = (0usize, 0usize);
+    if lo <= hi {
+        for &k in keys.iter() {
+            below += usize::from(k < lo);
+            band[inside] = k;
+            inside += usize::from((k.wrapping_sub(lo) as u32) < width);
         }
     }
+    let band = &mut band[..inside];
     if below <= lower && upper < below + band.len() {
         let j = upper - below;
         let hi_value = select_key(band, j);

@@ -318,6 +318,10 @@ pub struct CfarPlan {
     sat: Vec<f64>,
     /// OS: the map with its Doppler axis wrapped onto both sides, rows × (cols + 2 hd).
     wrapped: Vec<f32>,
+    /// Row prefix sums of the wrapped rows (CA).
+    prefix: Vec<f64>,
+    /// CA: per cell of a row, 1 when it passes the quick test.
+    near: Vec<u8>,
     /// OS selection scratch: order keys of the training cells (`stats::total_key`).
     scratch: Vec<i32>,
 }
@@ -336,6 +340,8 @@ impl CfarPlan {
             row_entry: Vec::new(),
             sat: Vec::new(),
             wrapped: Vec::new(),
+            prefix: Vec::new(),
+            near: Vec::new(),
             scratch: Vec::with_capacity(full),
         };
         // Edge counts of a tall map: rows r = 0..=hr at the top (the bottom is symmetric).
@@ -480,51 +486,107 @@ impl CfarPlan {
         // Extended column j <-> Doppler bin (j - hd) mod cols (cols >= 2 hd + 1, checked).
         let ext = cols + 2 * hd;
         let w = ext + 1;
-        self.sat.clear();
+        // Every entry is written below but the first row and the first column (zeros).
         self.sat.resize((rows + 1) * w, 0.0);
-        let clean = |v: f32| if v.is_finite() { v as f64 } else { 0.0 };
-        for (r, row) in power.rows().into_iter().enumerate() {
+        self.sat[..w].fill(0.0);
+        // Row prefix sums first, four rows side by side (each sum is a chain of dependent
+        // additions; independent rows overlap), then each table row is the one above plus
+        // its prefix: the same additions, in the same order, as one running pass.
+        // The wrapped rows with non-finite cells read as 0 (they add nothing to a sum).
+        wrap_rows(power, hd, &mut self.wrapped);
+        for v in self.wrapped.iter_mut() {
+            *v = if v.is_finite() { *v } else { 0.0 };
+        }
+        self.prefix.resize(rows * ext, 0.0);
+        for (src, dst) in self
+            .wrapped
+            .chunks(4 * ext)
+            .zip(self.prefix.chunks_mut(4 * ext))
+        {
+            if src.len() == 4 * ext {
+                let mut runs = [0.0f64; 4];
+                for j in 0..ext {
+                    for (g, run) in runs.iter_mut().enumerate() {
+                        *run += src[g * ext + j] as f64;
+                        dst[g * ext + j] = *run;
+                    }
+                }
+            } else {
+                for (s_row, d_row) in src.chunks(ext).zip(dst.chunks_mut(ext)) {
+                    let mut run = 0.0f64;
+                    for (d, &v) in d_row.iter_mut().zip(s_row) {
+                        run += v as f64;
+                        *d = run;
+                    }
+                }
+            }
+        }
+        for r in 0..rows {
             let (above, here) = self.sat.split_at_mut((r + 1) * w);
-            let above = &above[r * w..];
-            let here = &mut here[..w];
-            let mut run = 0.0f64;
-            let wrapped = (cols - hd..cols).chain(0..cols).chain(0..hd);
-            for (j, c) in wrapped.enumerate() {
-                run += clean(row[c]);
-                here[j + 1] = above[j + 1] + run;
+            let above = &above[r * w + 1..(r + 1) * w];
+            here[0] = 0.0;
+            let here = &mut here[1..w];
+            let pre = &self.prefix[r * ext..(r + 1) * ext];
+            for ((h, &a), &p) in here.iter_mut().zip(above).zip(pre) {
+                *h = a + p;
             }
         }
         let sat = &self.sat;
-        // Sum over rows a..=b, extended columns c0..=c1.
-        let rect = |a: usize, b: usize, c0: usize, c1: usize| -> f64 {
-            let (top, bot) = (&sat[a * w..(a + 1) * w], &sat[(b + 1) * w..(b + 2) * w]);
-            bot[c1 + 1] - top[c1 + 1] - bot[c0] + top[c0]
-        };
         for (r, row) in power.rows().into_iter().enumerate() {
             let e = self.row_entry[r];
             let (oa, ob) = (r.saturating_sub(hr), (r + hr).min(rows - 1));
             let (ia, ib) = (r.saturating_sub(gr), (r + gr).min(rows - 1));
             let mask = allowed.as_ref().map(|m| m.row(r));
             let n = e.n as f64;
-            for (c, &cut) in row.iter().enumerate() {
+            // Sum over rows a..=b, extended columns c0..=c1, is
+            // bot[c1 + 1] - top[c1 + 1] - bot[c0] + top[c0] (top = table row a, bot = b + 1).
+            let (to, bo) = (&sat[oa * w..(oa + 1) * w], &sat[(ob + 1) * w..(ob + 2) * w]);
+            let (ti, bi) = (&sat[ia * w..(ia + 1) * w], &sat[(ib + 1) * w..(ib + 2) * w]);
+            // Each term as a slice of `cols` entries, so the loop indexes without checks.
+            let (oc, ic) = (2 * hd + 1, hd + gd + 1);
+            let (bo1, to1, bo0, to0) = (
+                &bo[oc..oc + cols],
+                &to[oc..oc + cols],
+                &bo[..cols],
+                &to[..cols],
+            );
+            let ii = hd - gd;
+            let (bi1, ti1, bi0, ti0) = (
+                &bi[ic..ic + cols],
+                &ti[ic..ic + cols],
+                &bi[ii..ii + cols],
+                &ti[ii..ii + cols],
+            );
+            let cuts = &self.wrapped[r * ext + hd..r * ext + hd + cols];
+            // Most cells are far below their threshold: tested first without the division,
+            // with a margin (1e-9) far above the rounding of either side (a few 1e-16), in
+            // one pass over the row that vectorises; only cells near or above it take the
+            // exact test. (Non-finite cells read 0 here, and are never hits.)
+            let sum_at = |c: usize| {
+                let outer = bo1[c] - to1[c] - bo0[c] + to0[c];
+                let inner = bi1[c] - ti1[c] - bi0[c] + ti0[c];
+                outer - inner
+            };
+            self.near.resize(cols, 0);
+            for (c, (f, &cut)) in self.near.iter_mut().zip(cuts).enumerate() {
+                // (a NaN sum, from an overflow, takes the exact test like the original)
+                let far_below = (cut as f64) * n < e.mult * sum_at(c) * (1.0 - 1e-9);
+                *f = u8::from(!far_below);
+            }
+            for (c, &f) in self.near.iter().enumerate() {
+                if f == 0 {
+                    continue;
+                }
                 if let Some(m) = &mask {
                     if !m[c] {
                         continue;
                     }
                 }
+                let cut = row[c];
                 if !cut.is_finite() {
                     continue;
                 }
-                let outer = rect(oa, ob, c, c + 2 * hd);
-                let inner = rect(ia, ib, c + hd - gd, c + hd + gd);
-                let sum = outer - inner;
-                // Most cells are far below their threshold: tested first without the
-                // division, with a margin (1e-9) far above the rounding of either side
-                // (a few 1e-16), so only cells near or above it take the exact test.
-                if (cut as f64) * n < e.mult * sum * (1.0 - 1e-9) {
-                    continue;
-                }
-                push_if_hit(hits, r, c, cut, sum / n, e.mult);
+                push_if_hit(hits, r, c, cut, sum_at(c) / n, e.mult);
             }
         }
     }
@@ -545,11 +607,7 @@ impl CfarPlan {
         // The map with its Doppler axis wrapped hd bins onto each side: extended column
         // j <-> bin (j - hd) mod cols, so every window is a contiguous run of a row.
         let ext = cols + 2 * hd;
-        self.wrapped.clear();
-        for row in power.rows() {
-            let wrapped = (cols - hd..cols).chain(0..cols).chain(0..hd);
-            self.wrapped.extend(wrapped.map(|c| row[c]));
-        }
+        wrap_rows(power, hd, &mut self.wrapped);
         let wrapped = &self.wrapped;
         // The training cells of CUT (r, c) on row rr, as up to two runs (their order does
         // not matter to a rank): the whole window beyond the guard rows, the two flanks on
@@ -566,30 +624,41 @@ impl CfarPlan {
         for r in 0..rows {
             let e = self.row_entry[r];
             let (oa, ob) = (r.saturating_sub(hr), (r + hr).min(rows - 1));
+            let mask = allowed.as_ref().map(|m| m.row(r));
+            let mask_row = mask.as_ref().and_then(|m| m.to_slice());
+            let prow = &wrapped[r * ext + hd..r * ext + hd + cols];
             for c in 0..cols {
-                if let Some(m) = &allowed {
-                    if !m[[r, c]] {
-                        continue;
-                    }
+                match (mask_row, &mask) {
+                    (Some(m), _) if !m[c] => continue,
+                    (None, Some(m)) if !m[c] => continue,
+                    _ => {}
                 }
-                let cut = power[[r, c]];
+                let cut = prow[c];
                 if !cut.is_finite() {
                     continue;
                 }
                 // First only counted: the cell is a hit only if the k-th smallest x has
                 // (x to_noise) mult < cut, and then at least k cells are not above that
                 // (the product is monotone in x); most cells fail here, unsorted.
-                let cut64 = cut as f64;
-                let mut below = 0usize;
+                // Counted in f32 against a threshold a little above the exact one
+                // (x to_noise mult < cut in f64 implies x < t): this count is never below
+                // the exact count, so a cell it rejects the exact count rejects too.
+                let t = (cut as f64 / (e.to_noise * e.mult) * (1.0 + 1e-5)) as f32;
+                // Stopped as soon as more than N - k cells are not below: then fewer than
+                // k can be, whatever the rest hold.
+                let (mut below, mut seen) = (0usize, 0usize);
+                let most_above = e.n - e.k;
                 for rr in oa..=ob {
                     for run in runs(r, c, rr) {
-                        below += run
-                            .iter()
-                            .map(|&x| {
-                                let v = x as f64 * e.to_noise * e.mult;
-                                usize::from(v < cut64 || v.is_nan())
-                            })
-                            .sum::<usize>();
+                        below += run.iter().fold(0u32, |a, &x| {
+                            // NaN counts as below, as in the exact count
+                            let not_below = x >= t;
+                            a + u32::from(!not_below)
+                        }) as usize;
+                        seen += run.len();
+                    }
+                    if seen - below > most_above {
+                        break;
                     }
                 }
                 if below < e.k {
@@ -604,6 +673,26 @@ impl CfarPlan {
                 let kth = select_key(keys, e.k - 1);
                 let noise = kth as f64 * e.to_noise;
                 push_if_hit(hits, r, c, cut, noise, e.mult);
+            }
+        }
+    }
+}
+
+/// The map's rows with the Doppler axis wrapped `hd` bins onto each side, into `out`:
+/// extended column j of a row is bin (j - hd) mod cols.
+fn wrap_rows(power: ArrayView2<f32>, hd: usize, out: &mut Vec<f32>) {
+    let cols = power.ncols();
+    out.clear();
+    for row in power.rows() {
+        match row.as_slice() {
+            Some(r) => {
+                out.extend_from_slice(&r[cols - hd..]);
+                out.extend_from_slice(r);
+                out.extend_from_slice(&r[..hd]);
+            }
+            None => {
+                let wrapped = (cols - hd..cols).chain(0..cols).chain(0..hd);
+                out.extend(wrapped.map(|c| row[c]));
             }
         }
     }

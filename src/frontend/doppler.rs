@@ -127,19 +127,95 @@ impl RangeDopplerPlan {
             format!("PRF {prf_hz} Hz is out of range; allowed: > 0")
         })?;
         let k = block.len() / m;
+        self.transform(k, |t| &block[t * k..(t + 1) * k], prf_hz, map)
+    }
+
+    /// [`RangeDopplerPlan::process_into`] of a ring of `M` chirps (`M * K` values, slot s
+    /// holding `ring[s * K..(s + 1) * K]`) whose oldest chirp sits in slot `oldest`: the
+    /// same map as of the chirps copied out in time order, without the copy.
+    pub fn process_ring_into(
+        &mut self,
+        ring: &[Complex32],
+        oldest: usize,
+        prf_hz: f64,
+        map: &mut RangeDopplerMap,
+    ) -> Result<()> {
+        let m = self.chirps;
+        ensure(
+            !ring.is_empty() && ring.len() % m == 0 && oldest < m,
+            || {
+                format!(
+                "CPI ring of {} values (oldest slot {oldest}) is not a whole number of {m} chirps; allowed: a positive multiple of {m}, oldest < {m}",
+                ring.len()
+            )
+            },
+        )?;
+        ensure(prf_hz.is_finite() && prf_hz > 0.0, || {
+            format!("PRF {prf_hz} Hz is out of range; allowed: > 0")
+        })?;
+        let k = ring.len() / m;
+        self.transform(
+            k,
+            |t| {
+                let s = (oldest + t) % m;
+                &ring[s * k..(s + 1) * k]
+            },
+            prf_hz,
+            map,
+        )
+    }
+
+    /// The map of the `M` chirps `chirp(t)` (t in time order, `k` cells each).
+    fn transform<'a>(
+        &mut self,
+        k: usize,
+        chirp: impl Fn(usize) -> &'a [Complex32],
+        prf_hz: f64,
+        map: &mut RangeDopplerMap,
+    ) -> Result<()> {
+        let m = self.chirps;
         if self.buf.len() != k * m {
             self.buf.resize(k * m, Complex32::new(0.0, 0.0));
         }
         // Transpose to cell-major with the window applied, in tiles of `TILE` chirps so
         // each cell's run of the tile is written as one contiguous piece.
         const TILE: usize = 8;
-        for (t, tile) in block.chunks(k * TILE).enumerate() {
-            let m0 = t * TILE;
-            let n = tile.len() / k;
-            for ki in 0..k {
-                let dst = &mut self.buf[ki * m + m0..ki * m + m0 + n];
-                for (j, d) in dst.iter_mut().enumerate() {
-                    *d = tile[j * k + ki] * self.window[m0 + j];
+        let mut rows: [&[Complex32]; TILE] = [&[]; TILE];
+        for m0 in (0..m).step_by(TILE) {
+            let n = TILE.min(m - m0);
+            for (j, row) in rows.iter_mut().enumerate().take(n) {
+                *row = chirp(m0 + j);
+            }
+            let w = &self.window[m0..m0 + n];
+            if n == TILE {
+                // Eight cells at a time: each chirp's run of them is read once, each cell's
+                // run of the tile written as one piece.
+                let mut ki = 0;
+                while ki + TILE <= k {
+                    let mut block = [[Complex32::new(0.0, 0.0); TILE]; TILE];
+                    for (j, (row, &wj)) in rows.iter().zip(w).enumerate() {
+                        for (t, &x) in row[ki..ki + TILE].iter().enumerate() {
+                            block[t][j] = x * wj;
+                        }
+                    }
+                    for (t, b) in block.iter().enumerate() {
+                        let at = (ki + t) * m + m0;
+                        self.buf[at..at + TILE].copy_from_slice(b);
+                    }
+                    ki += TILE;
+                }
+                for ki in ki..k {
+                    let dst = &mut self.buf[ki * m + m0..ki * m + m0 + n];
+                    for ((d, row), &wj) in dst.iter_mut().zip(&rows[..n]).zip(w) {
+                        *d = row[ki] * wj;
+                    }
+                }
+            } else {
+                for ki in 0..k {
+                    let dst = &mut self.buf[ki * m + m0..ki * m + m0 + n];
+                    for ((d, row), &wj) in dst.iter_mut().zip(&rows[..n]).zip(w) {
+                        *d = row[ki] * wj;
+                    }
                 }
             }
         }
@@ -155,8 +231,22 @@ impl RangeDopplerPlan {
         for (ki, mut row) in map.power.rows_mut().into_iter().enumerate() {
             let src = &self.buf[ki * m..(ki + 1) * m];
             let (neg, pos) = (&src[lower..], &src[..lower]);
-            for (p, v) in row.iter_mut().zip(neg.iter().chain(pos)) {
-                *p = v.norm_sqr();
+            match row.as_slice_mut() {
+                Some(out) => {
+                    // two plain loops (they vectorise; a chained iterator does not)
+                    let (a, b) = out.split_at_mut(neg.len());
+                    for (p, v) in a.iter_mut().zip(neg) {
+                        *p = v.re * v.re + v.im * v.im;
+                    }
+                    for (p, v) in b.iter_mut().zip(pos) {
+                        *p = v.re * v.re + v.im * v.im;
+                    }
+                }
+                None => {
+                    for (p, v) in row.iter_mut().zip(neg.iter().chain(pos)) {
+                        *p = v.norm_sqr();
+                    }
+                }
             }
         }
         Ok(())

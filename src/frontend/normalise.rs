@@ -92,6 +92,7 @@ pub struct NoiseFloor {
     raw_range: Vec<f32>,
     new_range: Vec<f32>,
     band: Vec<i32>,
+    window: Vec<i32>,
     new_doppler: Vec<f32>,
 }
 
@@ -109,6 +110,7 @@ impl NoiseFloor {
             raw_range: Vec::new(),
             new_range: Vec::new(),
             band: Vec::new(),
+            window: Vec::new(),
             new_doppler: Vec::new(),
         })
     }
@@ -140,10 +142,17 @@ impl NoiseFloor {
         }
         // n_doppler(d) = median over range
         self.column.resize(k * d, 0);
-        // the map transposed into keys, Doppler column by column
-        for (ki, row) in map.power.rows().into_iter().enumerate() {
-            for (di, &p) in row.iter().enumerate() {
-                self.column[di * k + ki] = total_key(p);
+        // the map transposed into keys, Doppler column by column, in tiles (each tile's
+        // rows and columns stay in cache)
+        const TILE: usize = 16;
+        for k0 in (0..k).step_by(TILE) {
+            for d0 in (0..d).step_by(TILE) {
+                for ki in k0..(k0 + TILE).min(k) {
+                    let row = map.power.row(ki);
+                    for di in d0..(d0 + TILE).min(d) {
+                        self.column[di * k + ki] = total_key(row[di]);
+                    }
+                }
             }
         }
         // The last map's medians are the guesses (`median_of_keys_in_band`: exact).
@@ -181,10 +190,10 @@ impl NoiseFloor {
         for ki in 0..k {
             let lo = ki.saturating_sub(w);
             let hi = (ki + w + 1).min(k);
-            self.column.clear();
-            self.column
+            self.window.clear();
+            self.window
                 .extend(self.raw_range[lo..hi].iter().map(|&v| total_key(v)));
-            self.new_range[ki] = median_of_keys(&mut self.column).max(TINY);
+            self.new_range[ki] = median_of_keys(&mut self.window).max(TINY);
         }
         if self.updates == 0 {
             self.n_range.copy_from_slice(&self.new_range);
@@ -211,6 +220,15 @@ impl NoiseFloor {
         let r = self.n_range.get(k)?;
         let dd = self.n_doppler.get(d)?;
         Some(r * dd / std::f32::consts::LN_2)
+    }
+
+    /// The two factors (range, Doppler) of the median estimate: [`NoiseFloor::noise`]
+    /// of cell (k, d) is `range[k] * doppler[d] / ln 2`. Empty before the first update.
+    pub fn factors(&self) -> (&[f32], &[f32]) {
+        if self.updates == 0 {
+            return (&[], &[]);
+        }
+        (&self.n_range, &self.n_doppler)
     }
 
     /// Writes `power / noise` (linear, mean 1 on noise) into `out`, resized to the map's

@@ -553,12 +553,12 @@ fn covered(d: &Detection, dets: &[Detection], cell: f64) -> bool {
 /// map and that map normalised by its noise floor (plans and buffers made once).
 struct MapPath {
     ring: Vec<Complex32>,
-    cpi: Vec<Complex32>,
     plan: RangeDopplerPlan,
     noise: NoiseFloor,
     map: RangeDopplerMap,
     norm: Array2<f32>,
-    cells: usize,
+    /// Scratch: each cell's leak over the noise in the region of one row.
+    leak_row: Vec<f32>,
     prf: f64,
 }
 
@@ -567,20 +567,19 @@ impl MapPath {
         let zero = Complex32::new(0.0, 0.0);
         Ok(MapPath {
             ring: vec![zero; m * k],
-            cpi: vec![zero; m * k],
             plan: RangeDopplerPlan::new(m, s.doppler_window)?,
             noise: NoiseFloor::new(np)?,
             map: RangeDopplerMap::zeros(k, m, prf),
             norm: Array2::zeros((k, m)),
-            cells: k,
+            leak_row: Vec::with_capacity(m),
             prf,
         })
     }
     /// Range-Doppler map of the ring (next write position `pos`) and its noise floor
     /// updated.
     fn map_and_noise(&mut self, pos: usize) -> Result<()> {
-        unroll(&self.ring, pos, self.cells, &mut self.cpi);
-        self.plan.process_into(&self.cpi, self.prf, &mut self.map)?;
+        self.plan
+            .process_ring_into(&self.ring, pos, self.prf, &mut self.map)?;
         self.noise.update(&self.map)
     }
 
@@ -632,24 +631,37 @@ impl MapPath {
         cell_scale.fill(1.0);
         let g = leak.profile();
         let region_bins = region.iter().filter(|&&b| b).count().max(1) as f32;
+        let (n_range, n_doppler) = self.noise.factors();
         if g.iter().any(|&x| x > 0.0) {
             for (r, mut row) in self.norm.rows_mut().into_iter().enumerate() {
                 let c = reference[r];
                 if c <= 0.0 {
                     continue;
                 }
-                let mut sum_leak = 0.0f32;
-                for (d, v) in row.iter_mut().enumerate() {
+                // Branch-free over the row (so it vectorises): cells without a leak keep
+                // their value and a scale of 1 and add nothing to the region's sum.
+                let nr = n_range[r];
+                let row = row.as_slice_mut().expect("standard layout");
+                let mut srow = scale.row_mut(r);
+                let srow = srow.as_slice_mut().expect("standard layout");
+                self.leak_row.resize(row.len(), 0.0);
+                for (d, (v, sc)) in row.iter_mut().zip(srow.iter_mut()).enumerate() {
                     let lk = g[d] * c;
-                    if lk > 0.0 {
-                        let n = self.noise.noise(r, d).unwrap_or(1.0).max(f32::MIN_POSITIVE);
-                        let l = lk / n;
-                        *v /= 1.0 + l;
-                        scale[[r, d]] = (1.0 + margin * l) / (1.0 + l);
-                        if region[d] {
-                            sum_leak += l;
-                        }
-                    }
+                    // `NoiseFloor::noise`, floored as `noise_at`
+                    let n = (nr * n_doppler[d] / std::f32::consts::LN_2).max(f32::MIN_POSITIVE);
+                    let l = lk / n;
+                    let leaks = lk > 0.0;
+                    *v = if leaks { *v / (1.0 + l) } else { *v };
+                    *sc = if leaks {
+                        (1.0 + margin * l) / (1.0 + l)
+                    } else {
+                        1.0
+                    };
+                    self.leak_row[d] = if leaks && region[d] { l } else { 0.0 };
+                }
+                let mut sum_leak = 0.0f32;
+                for &l in &self.leak_row {
+                    sum_leak += l;
                 }
                 let l = sum_leak / region_bins;
                 cell_scale[r] = (1.0 + margin * l) / (1.0 + l);
@@ -662,14 +674,6 @@ impl MapPath {
         }
         Ok(())
     }
-}
-
-/// Copies a ring of `m` chirps (next write position `pos`) into time order.
-fn unroll(ring: &[Complex32], pos: usize, k: usize, out: &mut [Complex32]) {
-    let split = pos * k;
-    let tail = ring.len() - split;
-    out[..tail].copy_from_slice(&ring[split..]);
-    out[tail..].copy_from_slice(&ring[..split]);
 }
 
 /// Doppler bins (FFT-shifted, bin m/2 = 0 Hz) inside the canceller notch: slower than
