@@ -55,9 +55,23 @@ pub fn median_of_keys(keys: &mut [i32]) -> f32 {
 /// ranks for an even count) falls inside, the selection runs on the band alone, else on
 /// everything. The result is the same either way; `keys` is left unchanged or reordered.
 pub fn median_of_keys_in_band(keys: &mut [i32], lo: i32, hi: i32, band: &mut Vec<i32>) -> f32 {
+    match try_median_of_keys_in_band(keys, lo, hi, band) {
+        Some(m) => m,
+        None => median_of_keys(keys),
+    }
+}
+
+/// The median of the keys when the band `[lo, hi)` holds it (see
+/// [`median_of_keys_in_band`]), else `None`; `keys` is left unchanged.
+pub fn try_median_of_keys_in_band(
+    keys: &[i32],
+    lo: i32,
+    hi: i32,
+    band: &mut Vec<i32>,
+) -> Option<f32> {
     let n = keys.len();
     if n == 0 {
-        return 0.0;
+        return Some(0.0);
     }
     let upper = n / 2;
     let lower = if n % 2 == 0 { upper - 1 } else { upper };
@@ -80,7 +94,7 @@ pub fn median_of_keys_in_band(keys: &mut [i32], lo: i32, hi: i32, band: &mut Vec
         let j = upper - below;
         let hi_value = select_key(band, j);
         if n % 2 == 1 {
-            return hi_value;
+            return Some(hi_value);
         }
         // even: the lower middle is the largest key ranked below j (j >= 1 here)
         let lo_value = band[..j]
@@ -88,7 +102,44 @@ pub fn median_of_keys_in_band(keys: &mut [i32], lo: i32, hi: i32, band: &mut Vec
             .copied()
             .max()
             .map_or(hi_value, from_total_key);
-        return 0.5 * (lo_value + hi_value);
+        return Some(0.5 * (lo_value + hi_value));
+    }
+    None
+}
+
+/// [`median_of_keys`] with several nested guesses: `bands` are bands of keys, narrowest
+/// first, each expected to hold the median. One pass counts the keys below every band
+/// edge (branch-free, it vectorises); the selection then runs on the keys of the narrowest
+/// band that holds the median's rank(s), copied out in a second pass, or on everything
+/// when none does. The result is the same whichever answers.
+pub fn median_of_keys_guessed(
+    keys: &mut [i32],
+    bands: &[(i32, i32); 3],
+    band: &mut Vec<i32>,
+) -> f32 {
+    let n = keys.len();
+    if n == 0 {
+        return 0.0;
+    }
+    let upper = n / 2;
+    let lower = if n % 2 == 0 { upper - 1 } else { upper };
+    let mut below = [0u32; 6];
+    for &k in keys.iter() {
+        below[0] += u32::from(k < bands[0].0);
+        below[1] += u32::from(k < bands[0].1);
+        below[2] += u32::from(k < bands[1].0);
+        below[3] += u32::from(k < bands[1].1);
+        below[4] += u32::from(k < bands[2].0);
+        below[5] += u32::from(k < bands[2].1);
+    }
+    for (i, &(lo, hi)) in bands.iter().enumerate() {
+        let (b_lo, b_hi) = (below[2 * i] as usize, below[2 * i + 1] as usize);
+        // keys in [lo, hi) hold ranks b_lo..b_hi
+        if lo <= hi && b_lo <= lower && upper < b_hi {
+            if let Some(m) = try_median_of_keys_in_band(keys, lo, hi, band) {
+                return m;
+            }
+        }
     }
     median_of_keys(keys)
 }
@@ -262,6 +313,32 @@ mod tests {
             ] {
                 let got = median_of_keys_in_band(&mut k2, total_key(lo), total_key(hi), &mut band);
                 assert_eq!(got, want, "n {n} band {lo}..{hi}");
+            }
+            // nested guesses, right, wrong or empty, give the same median too
+            let key = |x: f32| total_key(x);
+            for bands in [
+                [
+                    (key(want * 0.95), key(want * 1.05)),
+                    (key(0.0), key(1e9)),
+                    (key(0.0), key(1e9)),
+                ],
+                [
+                    (key(want * 1.2), key(want * 1.3)),
+                    (key(want * 0.5), key(want * 0.9)),
+                    (key(want), key(want * 1.5)),
+                ],
+                [
+                    (key(2.0), key(1.0)),
+                    (key(want * 0.999), key(want)),
+                    (key(0.0), key(want * 0.5)),
+                ],
+            ] {
+                let mut k3: Vec<i32> = v[..n].iter().map(|&x| total_key(x)).collect();
+                assert_eq!(
+                    median_of_keys_guessed(&mut k3, &bands, &mut band),
+                    want,
+                    "n {n}"
+                );
             }
         }
     }

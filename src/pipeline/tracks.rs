@@ -644,20 +644,30 @@ impl MapPath {
                 let row = row.as_slice_mut().expect("standard layout");
                 let mut srow = scale.row_mut(r);
                 let srow = srow.as_slice_mut().expect("standard layout");
-                self.leak_row.resize(row.len(), 0.0);
-                for (d, (v, sc)) in row.iter_mut().zip(srow.iter_mut()).enumerate() {
+                let m = row.len();
+                self.leak_row.resize(m, 0.0);
+                // every slice cut to the row's length: the loop indexes without checks
+                let (g, nd, region, srow, lrow) = (
+                    &g[..m],
+                    &n_doppler[..m],
+                    &region[..m],
+                    &mut srow[..m],
+                    &mut self.leak_row[..m],
+                );
+                for d in 0..m {
                     let lk = g[d] * c;
                     // `NoiseFloor::noise`, floored as `noise_at`
-                    let n = (nr * n_doppler[d] / std::f32::consts::LN_2).max(f32::MIN_POSITIVE);
+                    let n = (nr * nd[d] / std::f32::consts::LN_2).max(f32::MIN_POSITIVE);
                     let l = lk / n;
                     let leaks = lk > 0.0;
-                    *v = if leaks { *v / (1.0 + l) } else { *v };
-                    *sc = if leaks {
+                    let v = row[d];
+                    row[d] = if leaks { v / (1.0 + l) } else { v };
+                    srow[d] = if leaks {
                         (1.0 + margin * l) / (1.0 + l)
                     } else {
                         1.0
                     };
-                    self.leak_row[d] = if leaks && region[d] { l } else { 0.0 };
+                    lrow[d] = if leaks && region[d] { l } else { 0.0 };
                 }
                 let mut sum_leak = 0.0f32;
                 for &l in &self.leak_row {
