@@ -47,6 +47,7 @@ pub mod recording;
 pub mod report;
 pub mod simulate;
 pub mod stats;
+pub mod wide;
 
 pub use atomic::{write_atomic, AtomicFile};
 pub use error::{Error, Result};

@@ -568,11 +568,22 @@ impl CfarPlan {
                 outer - inner
             };
             self.near.resize(cols, 0);
-            for (c, (f, &cut)) in self.near.iter_mut().zip(cuts).enumerate() {
-                // (a NaN sum, from an overflow, takes the exact test like the original)
-                let far_below = (cut as f64) * n < e.mult * sum_at(c) * (1.0 - 1e-9);
-                *f = u8::from(!far_below);
-            }
+            let near = &mut self.near;
+            crate::wide::with_avx(|| {
+                // every term zipped in (indexing would keep the loop from vectorising)
+                let terms = near
+                    .iter_mut()
+                    .zip(cuts)
+                    .zip(bo1.iter().zip(to1).zip(bo0.iter().zip(to0)))
+                    .zip(bi1.iter().zip(ti1).zip(bi0.iter().zip(ti0)));
+                for (((f, &cut), ((&b1, &t1), (&b0, &t0))), ((&c1, &u1), (&c0, &u0))) in terms {
+                    let outer = b1 - t1 - b0 + t0;
+                    let inner = c1 - u1 - c0 + u0;
+                    // (a NaN sum, from an overflow, takes the exact test like the original)
+                    let far_below = (cut as f64) * n < e.mult * (outer - inner) * (1.0 - 1e-9);
+                    *f = u8::from(!far_below);
+                }
+            });
             for (c, &f) in self.near.iter().enumerate() {
                 if f == 0 {
                     continue;

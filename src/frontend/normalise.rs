@@ -224,9 +224,12 @@ impl NoiseFloor {
             match row.as_slice() {
                 // a plain slice loop: it vectorises (the division is most of its cost)
                 Some(row) => {
-                    for ((r, &p), &nd) in self.ratios.iter_mut().zip(row).zip(&self.new_doppler) {
-                        *r = total_key(p / nd);
-                    }
+                    let (ratios, nds) = (&mut self.ratios, &self.new_doppler);
+                    crate::wide::with_avx(|| {
+                        for ((r, &p), &nd) in ratios.iter_mut().zip(row).zip(nds) {
+                            *r = total_key(p / nd);
+                        }
+                    });
                 }
                 None => {
                     for ((r, &p), &nd) in self
@@ -318,16 +321,18 @@ impl NoiseFloor {
         }
         if let (Some(o), Some(p)) = (out.as_slice_mut(), map.power.as_slice()) {
             // plain slice loops vectorise (two divisions a cell are most of the cost)
-            for ((orow, prow), &nr) in o
-                .chunks_exact_mut(d)
-                .zip(p.chunks_exact(d))
-                .zip(&self.n_range)
-            {
-                for ((o, &p), &nd) in orow.iter_mut().zip(prow).zip(&self.n_doppler) {
-                    let n = nr * nd / std::f32::consts::LN_2;
-                    *o = p / n;
+            crate::wide::with_avx(|| {
+                for ((orow, prow), &nr) in o
+                    .chunks_exact_mut(d)
+                    .zip(p.chunks_exact(d))
+                    .zip(&self.n_range)
+                {
+                    for ((o, &p), &nd) in orow.iter_mut().zip(prow).zip(&self.n_doppler) {
+                        let n = nr * nd / std::f32::consts::LN_2;
+                        *o = p / n;
+                    }
                 }
-            }
+            });
             return Ok(());
         }
         for ((orow, prow), &nr) in out

@@ -654,21 +654,28 @@ impl MapPath {
                     &mut srow[..m],
                     &mut self.leak_row[..m],
                 );
-                for d in 0..m {
-                    let lk = g[d] * c;
-                    // `NoiseFloor::noise`, floored as `noise_at`
-                    let n = (nr * nd[d] / std::f32::consts::LN_2).max(f32::MIN_POSITIVE);
-                    let l = lk / n;
-                    let leaks = lk > 0.0;
-                    let v = row[d];
-                    row[d] = if leaks { v / (1.0 + l) } else { v };
-                    srow[d] = if leaks {
-                        (1.0 + margin * l) / (1.0 + l)
-                    } else {
-                        1.0
-                    };
-                    lrow[d] = if leaks && region[d] { l } else { 0.0 };
-                }
+                crate::wide::with_avx(|| {
+                    // zipped, not indexed: the loop vectorises
+                    let cells = row
+                        .iter_mut()
+                        .zip(srow.iter_mut())
+                        .zip(lrow.iter_mut())
+                        .zip(g.iter().zip(nd).zip(region));
+                    for (((v, sc), lr), ((&gd, &ndd), &inside)) in cells {
+                        let lk = gd * c;
+                        // `NoiseFloor::noise`, floored as `noise_at`
+                        let n = (nr * ndd / std::f32::consts::LN_2).max(f32::MIN_POSITIVE);
+                        let l = lk / n;
+                        let leaks = lk > 0.0;
+                        *v = if leaks { *v / (1.0 + l) } else { *v };
+                        *sc = if leaks {
+                            (1.0 + margin * l) / (1.0 + l)
+                        } else {
+                            1.0
+                        };
+                        *lr = if leaks && inside { l } else { 0.0 };
+                    }
+                });
                 let mut sum_leak = 0.0f32;
                 for &l in &self.leak_row {
                     sum_leak += l;
