@@ -194,31 +194,11 @@ fn decode_frames(
     let frames = bytes.chunks_exact(frame);
     let count = frames.len();
     match dt {
-        // one channel: frames of a fixed 4 bytes, a loop that vectorises
+        // one channel: frames of a fixed 4 bytes at offset 0, a loop that vectorises
         DataType::Ci16Le if frame == 4 && off == 0 => {
-            let full = |x: i16| usize::from(x == i16::MIN || x == i16::MAX);
-            let mut clipped = 0usize;
-            out.extend(bytes.chunks_exact(4).map(|f| {
-                let re = i16::from_le_bytes([f[0], f[1]]);
-                let im = i16::from_le_bytes([f[2], f[3]]);
-                clipped += full(re) | full(im);
-                Complex32::new(re as f32 / 32767.0, im as f32 / 32767.0)
-            }));
-            stats.samples += count as u64;
-            stats.clipped += clipped as u64;
+            decode_ci16::<true>(bytes.chunks_exact(4), 0, out, stats)
         }
-        DataType::Ci16Le => {
-            let full = |x: i16| usize::from(x == i16::MIN || x == i16::MAX);
-            let mut clipped = 0usize;
-            out.extend(frames.map(|f| {
-                let re = i16::from_le_bytes([f[off], f[off + 1]]);
-                let im = i16::from_le_bytes([f[off + 2], f[off + 3]]);
-                clipped += full(re) | full(im);
-                Complex32::new(re as f32 / 32767.0, im as f32 / 32767.0)
-            }));
-            stats.samples += count as u64;
-            stats.clipped += clipped as u64;
-        }
+        DataType::Ci16Le => decode_ci16::<false>(frames, off, out, stats),
         DataType::Ci8 => {
             let full = |x: i8| usize::from(x == i8::MIN || x == i8::MAX);
             let mut clipped = 0usize;
@@ -234,6 +214,29 @@ fn decode_frames(
             out.extend(frames.map(|f| decode_checked(dt, &f[off..], stats)));
         }
     }
+}
+
+/// The ci16 samples at byte `off` of each frame onto `out`, counted into `stats`.
+/// `ONE_CHANNEL`: frames of 4 bytes, `off` 0 — a build of its own with the offset a
+/// constant, a loop that vectorises.
+fn decode_ci16<'a, const ONE_CHANNEL: bool>(
+    frames: impl ExactSizeIterator<Item = &'a [u8]>,
+    off: usize,
+    out: &mut Vec<Complex32>,
+    stats: &mut SampleStats,
+) {
+    let off = if ONE_CHANNEL { 0 } else { off };
+    let count = frames.len();
+    let full = |x: i16| usize::from(x == i16::MIN || x == i16::MAX);
+    let mut clipped = 0usize;
+    out.extend(frames.map(|f| {
+        let re = i16::from_le_bytes([f[off], f[off + 1]]);
+        let im = i16::from_le_bytes([f[off + 2], f[off + 3]]);
+        clipped += full(re) | full(im);
+        Complex32::new(re as f32 / 32767.0, im as f32 / 32767.0)
+    }));
+    stats.samples += count as u64;
+    stats.clipped += clipped as u64;
 }
 
 /// Counts the bad samples of every channel of a recording, reading its data file once
